@@ -1,0 +1,139 @@
+"""Compilation of a :class:`Network` into flat arrays, and the numba kernels that run them.
+
+Layout of a compiled network with n nodes: slots ``0 .. n_inputs-1`` hold the input
+nodes in list order, the next ``n_bias`` slots hold bias nodes (value 1.0), the remaining
+slots hold hidden and output nodes in evaluation order (topological for feedforward,
+node-list order for recurrent). Incoming enabled connections of computed node k (k counted
+from the first computed slot) are ``in_src[in_ptr[k]:in_ptr[k+1]]`` with weights ``in_w``.
+Index arrays are unsigned (uint32): numba then skips negative-index wraparound checks.
+
+A task's episode loop calls :func:`reset` once and :func:`step` once per control step,
+all inside one ``@njit`` function, so an episode is one call from Python.
+"""
+
+from __future__ import annotations
+
+from typing import NamedTuple
+
+import numba
+import numpy as np
+
+from .activations import CODES, apply
+from .network import Network, topological_order
+
+
+class CompiledNetwork(NamedTuple):
+    """Flat-array form of a network (see module docstring). Pass it whole to kernels."""
+
+    recurrent: bool
+    n_inputs: int
+    n_bias: int
+    n_nodes: int
+    act: np.ndarray  # uint8[n_computed], activation codes
+    bias: np.ndarray  # float64[n_computed]
+    gain: np.ndarray  # float64[n_computed]
+    in_ptr: np.ndarray  # uint32[n_computed + 1]
+    in_src: np.ndarray  # uint32[n_edges], slot of each source
+    in_w: np.ndarray  # float64[n_edges]
+    out_idx: np.ndarray  # uint32[n_outputs], slots of the output nodes in list order
+
+
+def compile_network(network: Network) -> CompiledNetwork:
+    """Flatten a *valid* network (see :func:`~neuroyard.harness.network.validate`)."""
+    nodes = network.nodes
+    recurrent = network.mode == "recurrent"
+    inputs = [n.id for n in nodes if n.kind == "input"]
+    biases = [n.id for n in nodes if n.kind == "bias"]
+    if recurrent:
+        computed = [n.id for n in nodes if n.kind in ("hidden", "output")]
+    else:
+        computed = topological_order(network)
+    slot = {nid: k for k, nid in enumerate(inputs + biases + computed)}
+    by_id = {n.id: n for n in nodes}
+    first = len(inputs) + len(biases)
+    incoming: list[list[tuple[int, float]]] = [[] for _ in computed]
+    for c in network.connections:
+        if c.enabled:
+            incoming[slot[c.target] - first].append((slot[c.source], c.weight))
+    counts = [len(x) for x in incoming]
+    in_ptr = np.zeros(len(computed) + 1, dtype=np.uint32)
+    np.cumsum(counts, out=in_ptr[1:])
+    flat = [e for edges in incoming for e in edges]
+    in_src = np.array([s for s, _ in flat], dtype=np.uint32)
+    in_w = np.array([w for _, w in flat], dtype=np.float64)
+    comp_nodes = [by_id[i] for i in computed]
+    return CompiledNetwork(
+        recurrent=recurrent,
+        n_inputs=len(inputs),
+        n_bias=len(biases),
+        n_nodes=len(slot),
+        act=np.array([CODES[n.activation] for n in comp_nodes], dtype=np.uint8),
+        bias=np.array([n.bias for n in comp_nodes], dtype=np.float64),
+        gain=np.array([n.gain for n in comp_nodes], dtype=np.float64),
+        in_ptr=in_ptr,
+        in_src=in_src,
+        in_w=in_w,
+        out_idx=np.array([slot[n.id] for n in nodes if n.kind == "output"], dtype=np.uint32),
+    )
+
+
+@numba.njit(cache=True)
+def new_state(net: CompiledNetwork) -> tuple[np.ndarray, np.ndarray]:
+    """Allocate (values, scratch) buffers for ``net``; call :func:`reset` before use."""
+    values = np.zeros(net.n_nodes, dtype=np.float64)
+    scratch = np.zeros(net.n_nodes, dtype=np.float64)
+    reset(net, values)
+    return values, scratch
+
+
+@numba.njit(cache=True)
+def reset(net: CompiledNetwork, values: np.ndarray) -> None:
+    """Start of an episode: every node 0, bias nodes 1."""
+    values[:] = 0.0
+    for k in range(net.n_inputs, net.n_inputs + net.n_bias):
+        values[k] = 1.0
+
+
+@numba.njit(cache=True)
+def step(
+    net: CompiledNetwork,
+    values: np.ndarray,
+    scratch: np.ndarray,
+    inputs: np.ndarray,
+    outputs: np.ndarray,
+) -> None:
+    """One network step: read ``inputs``, update nodes by the mode's rule, write ``outputs``."""
+    n_in = net.n_inputs
+    for i in range(n_in):
+        values[i] = inputs[i]
+    first = n_in + net.n_bias
+    src_vals = values
+    if net.recurrent:
+        scratch[:] = values
+        src_vals = scratch
+    in_ptr = net.in_ptr
+    in_src = net.in_src
+    in_w = net.in_w
+    for k in range(net.n_nodes - first):
+        total = 0.0
+        for e in range(in_ptr[k], in_ptr[k + 1]):
+            total += in_w[e] * src_vals[in_src[e]]
+        values[first + k] = apply(net.act[k], net.gain[k] * (net.bias[k] + total))
+    for j in range(net.out_idx.shape[0]):
+        outputs[j] = values[net.out_idx[j]]
+
+
+@numba.njit(cache=True)
+def run_sequence(net: CompiledNetwork, inputs: np.ndarray, reset_each: bool) -> np.ndarray:
+    """Step ``net`` over the rows of ``inputs`` (T x n_inputs); return outputs (T x n_outputs).
+
+    With ``reset_each`` the state is reset before every row (independent patterns, as in
+    the logic tasks); otherwise the rows form one episode.
+    """
+    values, scratch = new_state(net)
+    out = np.zeros((inputs.shape[0], net.out_idx.shape[0]), dtype=np.float64)
+    for t in range(inputs.shape[0]):
+        if reset_each:
+            reset(net, values)
+        step(net, values, scratch, inputs[t], out[t])
+    return out

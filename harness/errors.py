@@ -1,0 +1,21 @@
+"""Exceptions whose message is shown to the user as one line (the CLI never prints a traceback)."""
+
+
+class NeuroyardError(Exception):
+    """Base class: something the user can fix; the message says what was wrong and where."""
+
+
+class NetworkError(NeuroyardError):
+    """A network document is malformed or violates the format's rules."""
+
+
+class EvolverError(NeuroyardError):
+    """An evolver could not be found, loaded or configured."""
+
+
+class TaskError(NeuroyardError):
+    """An unknown task id or a bad task setting."""
+
+
+class StoreError(NeuroyardError):
+    """The results store cannot be opened, read or written."""

@@ -1,0 +1,1 @@
+"""Reference evolvers and the published figures they are compared with."""

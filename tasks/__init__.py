@@ -1,0 +1,7 @@
+"""The neuroyard task suite. Importing this package registers the built-in tasks."""
+
+from . import logic  # noqa: F401  (registers xor-v1, parity-v1)
+from .base import SuccessCheck, Task, TaskSpec
+from .registry import make, register, specs, task_ids
+
+__all__ = ["SuccessCheck", "Task", "TaskSpec", "make", "register", "specs", "task_ids"]

@@ -1,0 +1,118 @@
+"""The task contract.
+
+A task has a versioned id (``name-vN``: any change to dynamics, scaling or criteria bumps
+N), settings with defaults (every run records the settings it used), and a spec record.
+The harness calls:
+
+* ``evaluate(net) -> Evaluation``: the fitness of one compiled network; one call is one
+  counted evaluation.
+* ``success_test(net, evaluation) -> SuccessCheck``: the task's success criterion on a
+  generation's best network; its cost (episodes run) is counted apart from evaluations.
+
+Any randomness of the task itself comes from the ``seed`` it is built with; the harness
+derives that seed from (task, run index), so every evolver meets the same task instances.
+"""
+
+from __future__ import annotations
+
+from abc import ABC, abstractmethod
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any, ClassVar
+
+from neuroyard.harness.compiled import CompiledNetwork
+from neuroyard.harness.errors import TaskError
+from neuroyard.harness.evolver import Evaluation, Problem
+
+
+@dataclass(frozen=True)
+class TaskSpec:
+    """What a task is: interface, fitness, success criterion, default budget, sources."""
+
+    id: str
+    inputs: int
+    outputs: int
+    fitness: str
+    success: str
+    default_budget: int
+    sources: tuple[str, ...]
+    max_fitness: float | None = None
+    behaviour_size: int | None = None
+    needs_memory: bool = False
+    settings: Mapping[str, Any] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class SuccessCheck:
+    """Outcome of a success test: solved?, episodes it ran, and task-specific details."""
+
+    solved: bool
+    evaluations: int
+    details: Mapping[str, Any] = field(default_factory=dict)
+
+
+class Task(ABC):
+    """Base class. Subclasses set ``id`` and ``defaults`` and implement the abstract methods."""
+
+    id: ClassVar[str]
+    defaults: ClassVar[Mapping[str, Any]] = {}
+
+    def __init__(self, seed: int = 0, **settings: Any) -> None:
+        unknown = sorted(set(settings) - set(self.defaults))
+        if unknown:
+            known = ", ".join(sorted(self.defaults)) or "none"
+            raise TaskError(f"task {self.id}: unknown setting {unknown[0]!r} (known: {known})")
+        merged = dict(self.defaults)
+        for key, value in settings.items():
+            merged[key] = _coerce(self.id, key, self.defaults[key], value)
+        self.seed = seed
+        self.settings: dict[str, Any] = merged
+        self.check_settings()
+
+    def check_settings(self) -> None:  # noqa: B027 - optional hook
+        """Raise :class:`TaskError` naming the setting when a value is out of range."""
+
+    @property
+    @abstractmethod
+    def spec(self) -> TaskSpec: ...
+
+    @abstractmethod
+    def evaluate(self, net: CompiledNetwork) -> Evaluation: ...
+
+    @abstractmethod
+    def success_test(self, net: CompiledNetwork, evaluation: Evaluation) -> SuccessCheck: ...
+
+    def evaluate_batch(self, nets: Sequence[CompiledNetwork]) -> list[Evaluation]:
+        """Evaluate several networks; each is one counted evaluation."""
+        return [self.evaluate(net) for net in nets]
+
+    def problem(self, budget: int) -> Problem:
+        """The :class:`Problem` an evolver is started with."""
+        spec = self.spec
+        return Problem(
+            task=spec.id,
+            inputs=spec.inputs,
+            outputs=spec.outputs,
+            budget=budget,
+            max_fitness=spec.max_fitness,
+            behaviour_size=spec.behaviour_size,
+            needs_memory=spec.needs_memory,
+            settings=dict(self.settings),
+        )
+
+
+def _coerce(task_id: str, key: str, default: Any, value: Any) -> Any:
+    """Check a setting against the type of its default (ints are accepted for floats)."""
+    if isinstance(default, bool):
+        ok = isinstance(value, bool)
+    elif isinstance(default, int):
+        ok = isinstance(value, int) and not isinstance(value, bool)
+    elif isinstance(default, float):
+        ok = isinstance(value, int | float) and not isinstance(value, bool)
+    else:
+        ok = isinstance(value, type(default))
+    if not ok:
+        raise TaskError(
+            f"task {task_id}: setting {key!r} must be {type(default).__name__}, got {value!r}"
+        )
+    return float(value) if isinstance(default, float) else value

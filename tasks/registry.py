@@ -1,0 +1,63 @@
+"""The task registry: versioned ids to task classes.
+
+Built-in tasks register themselves on import of :mod:`neuroyard.tasks`; third-party
+packages add tasks through the entry-point group ``neuroyard.tasks`` (the target is a
+:class:`~neuroyard.tasks.base.Task` subclass).
+"""
+
+from __future__ import annotations
+
+import re
+from importlib.metadata import entry_points
+from typing import Any
+
+from neuroyard.harness.errors import TaskError
+
+from .base import Task, TaskSpec
+
+ENTRY_POINT_GROUP = "neuroyard.tasks"
+_ID = re.compile(r"^[a-z0-9][a-z0-9-]*-v\d+$")
+_REGISTRY: dict[str, type[Task]] = {}
+_plugins_loaded = False
+
+
+def register(cls: type[Task]) -> type[Task]:
+    """Class decorator: add a task class under its ``id`` (must look like ``name-vN``)."""
+    if not _ID.match(cls.id):
+        raise TaskError(f"task id {cls.id!r} must look like 'name-v1'")
+    if cls.id in _REGISTRY and _REGISTRY[cls.id] is not cls:
+        raise TaskError(f"task id {cls.id!r} is registered twice")
+    _REGISTRY[cls.id] = cls
+    return cls
+
+
+def _load_plugins() -> None:
+    global _plugins_loaded
+    if _plugins_loaded:
+        return
+    _plugins_loaded = True
+    for ep in entry_points(group=ENTRY_POINT_GROUP):
+        register(ep.load())
+
+
+def task_ids() -> list[str]:
+    _load_plugins()
+    return sorted(_REGISTRY)
+
+
+def task_class(task_id: str) -> type[Task]:
+    _load_plugins()
+    try:
+        return _REGISTRY[task_id]
+    except KeyError:
+        raise TaskError(f"unknown task {task_id!r} (known: {', '.join(task_ids())})") from None
+
+
+def make(task_id: str, seed: int = 0, **settings: Any) -> Task:
+    """Build task ``task_id`` with its task seed and settings (defaults for the rest)."""
+    return task_class(task_id)(seed=seed, **settings)
+
+
+def specs() -> list[TaskSpec]:
+    """Spec records of all registered tasks at their default settings."""
+    return [make(task_id).spec for task_id in task_ids()]
