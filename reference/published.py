@@ -1,0 +1,146 @@
+"""Published reference figures, read from the TOML files in ``reference/figures/``.
+
+Every number that comes from a paper lives in those files, with its citation, the protocol
+it was measured under and a provenance tag (the tags of ``LITERATURE.md``). Nothing else
+in neuroyard hard-codes a paper's number; the report and the reproduction tests read them
+from here.
+
+File layout (one file per task family)::
+
+    [[figure]]
+    task = "xor-v1"                    # neuroyard task id the figure belongs to
+    method = "NEAT"                    # method as named in the paper
+    compare_with = "neat"              # neuroyard evolver to put beside it ("" = none)
+    source = "Stanley & Miikkulainen 2002, Evolutionary Computation 10(2), sec. 4.2"
+    provenance = "VERIFIED-QUOTE"      # see PROVENANCE
+    note = "..."                       # optional
+    protocol = { "evolver.population_size" = 150, "task.start_angle" = 0.0175 }
+    values = { mean_evaluations = 4755, sd_evaluations = 2553 }
+
+``protocol`` keys are ``task.<setting>`` or ``evolver.<config key>``; a measured result is
+comparable with the figure only when every such key has the same value in the run.
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from functools import cache
+from importlib import resources
+from typing import Any
+
+from neuroyard.harness.errors import NeuroyardError
+
+# Tags of LITERATURE.md; only the first group may gate a pass/fail check.
+GATE_PROVENANCE = ("VERIFIED", "VERIFIED-QUOTE", "SECONDARY-ACADEMIC", "SECONDARY-NOTES")
+INFO_PROVENANCE = ("MEMORY-high", "MEMORY-medium", "MEMORY-low")
+PROVENANCE = GATE_PROVENANCE + INFO_PROVENANCE
+
+# Metric names a figure may carry (the report knows how to put each beside a measurement).
+METRICS = (
+    "runs",
+    "failures",
+    "success_rate",
+    "mean_evaluations",
+    "sd_evaluations",
+    "median_evaluations",
+    "worst_evaluations",
+    "mean_generations",
+    "mean_hidden_nodes",
+    "sd_hidden_nodes",
+    "mean_connections",
+    "sd_connections",
+    "mean_generalization",
+    "population",
+)
+
+
+@dataclass(frozen=True)
+class ReferenceFigure:
+    """A set of published values for one method on one task, under one protocol."""
+
+    task: str
+    method: str
+    compare_with: str
+    source: str
+    provenance: str
+    values: Mapping[str, float]
+    protocol: Mapping[str, Any] = field(default_factory=dict)
+    note: str = ""
+
+    @property
+    def from_memory(self) -> bool:
+        """True when the figure was recalled, not checked against a text: never a gate."""
+        return self.provenance in INFO_PROVENANCE
+
+    @property
+    def may_gate(self) -> bool:
+        return self.provenance in GATE_PROVENANCE
+
+    def mismatches(
+        self, task_settings: Mapping[str, Any], evolver_config: Mapping[str, Any]
+    ) -> list[str]:
+        """Protocol keys on which a run differs from the figure's protocol (empty = comparable).
+
+        A key the run does not record (a task setting or evolver option it lacks) counts as
+        a mismatch: like must be compared with like.
+        """
+        out = []
+        for key, expected in self.protocol.items():
+            scope, _, name = key.partition(".")
+            source = task_settings if scope == "task" else evolver_config
+            actual = source.get(name)
+            if actual is None or not _same(actual, expected):
+                out.append(f"{key}={actual!r} (published: {expected!r})")
+        return out
+
+
+def _same(a: Any, b: Any) -> bool:
+    if isinstance(a, int | float) and isinstance(b, int | float) and not isinstance(a, bool):
+        return math.isclose(float(a), float(b), rel_tol=1e-9, abs_tol=1e-12)
+    return a == b
+
+
+def _parse(doc: Mapping[str, Any], where: str) -> list[ReferenceFigure]:
+    out = []
+    for k, item in enumerate(doc.get("figure", [])):
+        label = f"{where}: figure {k + 1}"
+        missing = {"task", "method", "source", "provenance", "values"} - set(item)
+        if missing:
+            raise NeuroyardError(f"{label}: missing keys {sorted(missing)}")
+        if item["provenance"] not in PROVENANCE:
+            raise NeuroyardError(f"{label}: unknown provenance {item['provenance']!r}")
+        unknown = set(item["values"]) - set(METRICS)
+        if unknown:
+            raise NeuroyardError(f"{label}: unknown metrics {sorted(unknown)}")
+        out.append(
+            ReferenceFigure(
+                task=item["task"],
+                method=item["method"],
+                compare_with=item.get("compare_with", ""),
+                source=item["source"],
+                provenance=item["provenance"],
+                values={key: float(v) for key, v in item["values"].items()},
+                protocol=dict(item.get("protocol", {})),
+                note=item.get("note", ""),
+            )
+        )
+    return out
+
+
+@cache
+def all_figures() -> tuple[ReferenceFigure, ...]:
+    """Every figure of every file in ``reference/figures``."""
+    figures: list[ReferenceFigure] = []
+    folder = resources.files("neuroyard.reference") / "figures"
+    for entry in sorted(folder.iterdir(), key=lambda p: p.name):
+        if entry.name.endswith(".toml"):
+            figures += _parse(tomllib.loads(entry.read_text()), f"reference/figures/{entry.name}")
+    return tuple(figures)
+
+
+def figures_for(task: str, method: str | None = None) -> list[ReferenceFigure]:
+    """Figures for a task id, optionally only one method."""
+    return [f for f in all_figures() if f.task == task and (method is None or f.method == method)]
