@@ -29,6 +29,7 @@ import json
 import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
+from importlib import resources
 from typing import Any, Literal
 
 from .activations import CODES
@@ -124,7 +125,7 @@ def validate(
             raise NetworkError(
                 f"{label}: unknown kind {node.kind!r} (known: {', '.join(NODE_KINDS)})"
             )
-        if node.activation not in CODES:
+        if not isinstance(node.activation, str) or node.activation not in CODES:
             raise NetworkError(
                 f"{label}: unknown activation {node.activation!r} (known: {', '.join(CODES)})"
             )
@@ -143,8 +144,11 @@ def validate(
             raise NetworkError(f"{where}: connection list holds {type(conn).__name__}")
         label = f"{where}: connection {k} ({conn.source} -> {conn.target})"
         for end in ("source", "target"):
-            if getattr(conn, end) not in kinds:
-                raise NetworkError(f"{label}: {end} node {getattr(conn, end)!r} does not exist")
+            value = getattr(conn, end)
+            if isinstance(value, bool) or not isinstance(value, int):
+                raise NetworkError(f"{label}: {end} must be an integer node id, got {value!r}")
+            if value not in kinds:
+                raise NetworkError(f"{label}: {end} node {value!r} does not exist")
         if kinds[conn.target] in ("input", "bias"):
             raise NetworkError(
                 f"{label}: target is {kinds[conn.target]} node {conn.target}; "
@@ -231,6 +235,9 @@ def from_dict(doc: Mapping[str, Any], where: str = "network") -> Network:
     """Parse and validate the JSON form; errors name the offending entry."""
     if not isinstance(doc, Mapping):
         raise NetworkError(f"{where}: expected a JSON object, got {type(doc).__name__}")
+    unknown = set(doc) - {"format", "version", "mode", "nodes", "connections"}
+    if unknown:
+        raise NetworkError(f"{where}: unknown keys {sorted(unknown)}")
     if doc.get("format", FORMAT_NAME) != FORMAT_NAME:
         raise NetworkError(f"{where}: format is {doc.get('format')!r}, expected {FORMAT_NAME!r}")
     if doc.get("version", FORMAT_VERSION) != FORMAT_VERSION:
@@ -271,6 +278,12 @@ def _list(doc: Mapping[str, Any], key: str, where: str) -> list[Any]:
     if not isinstance(value, list):
         raise NetworkError(f"{where}: '{key}' must be a list")
     return value
+
+
+def schema() -> dict[str, Any]:
+    """The JSON Schema (draft 2020-12) of the JSON form, as shipped in ``network.schema.json``."""
+    text = resources.files(__package__).joinpath("network.schema.json").read_text("utf-8")
+    return json.loads(text)
 
 
 def dumps(network: Network) -> str:
