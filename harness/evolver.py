@@ -6,6 +6,8 @@ An evolver is any object with these methods::
     ask() -> Sequence[Network]                      # one batch = one generation
     tell(evaluations: Sequence[Evaluation]) -> None # results for the last batch, same order
     stats() -> Mapping[str, float]                  # optional: evolver-side figures
+    settings() -> Mapping[str, Any]                 # optional: effective configuration,
+                                                    #   defaults included (JSON values)
 
 The harness evaluates every network it is given and counts the evaluations itself; the
 evolver sees only the results. An evolver is made by calling a *factory* (usually the

@@ -1,0 +1,257 @@
+"""The ``neuroyard`` command line. It parses arguments and calls the library; no logic here.
+
+Every error prints one line ``neuroyard: error: ...`` on stderr and exits with status 2.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any, NoReturn
+
+from . import report as report_mod
+from .campaign import CampaignPlan, TaskChoice, execute
+from .errors import NeuroyardError
+from .evolver import EvolverSpec, read_config
+from .store import DEFAULT_PATH, ResultStore
+
+DEFAULT_EVOLVER = "rwg"  # the best reference evolver available on the quick suite
+QUICK_SUITE = ("xor-v1",)
+DEFAULT_RUNS = 10
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message: str) -> NoReturn:  # one line, no usage dump
+        raise NeuroyardError(f"{self.prog}: {message}")
+
+
+def _positive(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"must be at least 1, got {value}")
+    return value
+
+
+def _seed(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+    if value < 0:
+        raise argparse.ArgumentTypeError(f"must be >= 0, got {value}")
+    return value
+
+
+def _assignment(text: str) -> tuple[str, Any]:
+    """KEY=VALUE with VALUE parsed as JSON when it is valid JSON (numbers, true/false), else a string."""
+    key, sep, raw = text.partition("=")
+    if not sep or not key:
+        raise argparse.ArgumentTypeError(f"expected KEY=VALUE, got {text!r}")
+    try:
+        value = json.loads(raw)
+    except json.JSONDecodeError:
+        value = raw
+    return key.strip(), value
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = _Parser(prog="neuroyard", description="Benchmark neuroevolution algorithms honestly.")
+    sub = p.add_subparsers(dest="command", required=True, parser_class=_Parser)
+
+    t = sub.add_parser("tasks", help="list the tasks with interface, criteria and sources")
+    t.add_argument("--format", choices=("text", "json"), default="text")
+
+    r = sub.add_parser("run", help="run a campaign into a results store")
+    r.add_argument(
+        "--evolver",
+        action="append",
+        help=f"evolver name or module:attr (default {DEFAULT_EVOLVER})",
+    )
+    r.add_argument(
+        "--task", action="append", help=f"task id, repeatable (default {', '.join(QUICK_SUITE)})"
+    )
+    r.add_argument("--runs", type=_positive, default=DEFAULT_RUNS, help="runs per evolver and task")
+    r.add_argument("--seed", type=_seed, default=1, help="campaign seed")
+    r.add_argument("--budget", type=_positive, help="evaluations per run (default: the task's)")
+    r.add_argument("--store", type=Path, default=DEFAULT_PATH, help="results store file")
+    r.add_argument("--config", type=Path, help="evolver configuration TOML file")
+    r.add_argument(
+        "--param",
+        type=_assignment,
+        action="append",
+        default=[],
+        metavar="KEY=VALUE",
+        help="evolver setting",
+    )
+    r.add_argument(
+        "--setting",
+        type=_assignment,
+        action="append",
+        default=[],
+        metavar="KEY=VALUE",
+        help="task setting",
+    )
+    r.add_argument("--workers", type=_positive, default=1, help="parallel worker processes")
+    r.add_argument("--quiet", action="store_true", help="no progress bar and no report")
+
+    rp = sub.add_parser("report", help="summarise the runs in a store")
+    rp.add_argument("--store", type=Path, default=DEFAULT_PATH)
+    rp.add_argument("--format", choices=report_mod.FORMATS, default="text")
+
+    e = sub.add_parser("export", help="write every run record, one JSON object per line")
+    e.add_argument("--store", type=Path, default=DEFAULT_PATH)
+    e.add_argument("--format", choices=("jsonl",), required=True)
+
+    ev = sub.add_parser("evaluate", help="evaluate a network file on a task")
+    ev.add_argument("network", type=Path, help="network JSON file")
+    ev.add_argument("--task", required=True)
+    ev.add_argument("--setting", type=_assignment, action="append", default=[], metavar="KEY=VALUE")
+    return p
+
+
+def _cmd_tasks(args: argparse.Namespace) -> None:
+    from neuroyard.tasks import specs
+
+    rows = specs()
+    if args.format == "json":
+        print(json.dumps([_spec_json(s) for s in rows], indent=2))
+        return
+    for s in rows:
+        print(
+            f"{s.id}: {s.inputs} inputs, {s.outputs} outputs, default budget {s.default_budget:,} evaluations"
+        )
+        print(f"  fitness: {s.fitness}")
+        print(f"  solved:  {s.success}")
+        print(f"  settings: {json.dumps(dict(s.settings))}")
+        for src in s.sources:
+            print(f"  source:  {src}")
+
+
+def _spec_json(spec: Any) -> dict[str, Any]:
+    from dataclasses import asdict
+
+    doc = asdict(spec)
+    doc["settings"] = dict(spec.settings)
+    return doc
+
+
+def _plan(args: argparse.Namespace) -> CampaignPlan:
+    from neuroyard.tasks import make
+
+    from .evolver import load_factory
+
+    config: dict[str, Any] = read_config(args.config) if args.config else {}
+    config.update(dict(args.param))
+    evolvers = [EvolverSpec(name, config) for name in (args.evolver or [DEFAULT_EVOLVER])]
+    for spec in evolvers:  # fail before any run: unknown evolver or bad configuration
+        load_factory(spec.name)
+        spec.build()
+    settings = dict(args.setting)
+    tasks = [TaskChoice(task_id, settings) for task_id in (args.task or QUICK_SUITE)]
+    for task in tasks:
+        make(task.id, **task.settings)
+    return CampaignPlan(evolvers, tasks, args.runs, args.seed, args.budget)
+
+
+def _cmd_run(args: argparse.Namespace) -> None:
+    plan = _plan(args)
+    with ResultStore(args.store) as store:
+        done, skipped = execute(plan, store, workers=args.workers, progress=not args.quiet)
+        if args.quiet:
+            return
+        wanted = {(e.name, e.config_hash) for e in plan.evolvers}
+        tasks = {t.id for t in plan.tasks}
+        records = [
+            r
+            for r in store.records(with_log=False)
+            if (r.evolver, r.config_hash) in wanted and r.task in tasks
+        ]
+    print(f"{done} runs done, {skipped} already in {args.store}")
+    print(report_mod.render(report_mod.build(records), "text"))
+
+
+def _cmd_report(args: argparse.Namespace) -> None:
+    with ResultStore(args.store, create=False) as store:
+        rows = report_mod.build(store.records(with_log=False))
+    print(report_mod.render(rows, args.format))
+
+
+def _cmd_export(args: argparse.Namespace) -> None:
+    with ResultStore(args.store, create=False) as store:
+        for record in store.records():
+            sys.stdout.write(json.dumps(record.to_dict(), sort_keys=True) + "\n")
+
+
+def _cmd_evaluate(args: argparse.Namespace) -> None:
+    from neuroyard.tasks import make
+
+    from .compiled import compile_network
+    from .network import loads, validate
+
+    task = make(args.task, **dict(args.setting))
+    try:
+        text = args.network.read_text()
+    except OSError as exc:
+        raise NeuroyardError(
+            f"network file {args.network}: cannot read it ({exc.strerror})"
+        ) from None
+    network = loads(text, where=f"network file {args.network}")
+    validate(network, task.spec.inputs, task.spec.outputs, where=f"network file {args.network}")
+    compiled = compile_network(network)
+    result = task.evaluate(compiled)
+    check = task.success_test(compiled, result)
+    print(
+        json.dumps(
+            {
+                "task": task.spec.id,
+                "fitness": result.fitness,
+                "solved": check.solved,
+                "details": dict(check.details),
+                "hidden_nodes": network.hidden_nodes,
+                "connections": network.enabled_connections,
+            }
+        )
+    )
+
+
+COMMANDS = {
+    "tasks": _cmd_tasks,
+    "run": _cmd_run,
+    "report": _cmd_report,
+    "export": _cmd_export,
+    "evaluate": _cmd_evaluate,
+}
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    try:
+        args = build_parser().parse_args(argv)
+        COMMANDS[args.command](args)
+    except NeuroyardError as exc:
+        print(f"neuroyard: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("neuroyard: interrupted; finished runs are kept in the store", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return 0
+    except Exception as exc:  # a bug: still one line, unless debugging
+        if os.environ.get("NEUROYARD_DEBUG"):
+            raise
+        print(
+            f"neuroyard: internal error: {type(exc).__name__}: {exc} (set NEUROYARD_DEBUG=1 for details)",
+            file=sys.stderr,
+        )
+        return 3
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

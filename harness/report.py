@@ -1,0 +1,227 @@
+"""Reports: per evolver and task, the measured figures beside the published ones.
+
+Rows group runs by evolver (name and configuration), task and task settings. Published
+figures (from ``reference/``) are shown next to the measured value of the same metric,
+with the ratio measured/published, the figure's source and provenance, and whether the
+figure is comparable: measured under the same protocol settings (start angle, population
+size, ...). Figures recalled from memory are marked as such and are information only.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from collections.abc import Iterable, Sequence
+from dataclasses import asdict, dataclass, field
+from typing import Any
+
+from tabulate import tabulate
+
+from neuroyard.reference.published import figures_for
+
+from .runner import RunRecord
+from .stats import GroupSummary, summarize
+
+FORMATS = ("text", "json", "markdown")
+
+
+@dataclass(frozen=True)
+class Comparison:
+    """One published value beside the measured value of the same metric."""
+
+    method: str
+    metric: str
+    published: float
+    measured: float | None
+    ratio: float | None
+    source: str
+    provenance: str
+    from_memory: bool
+    comparable: bool
+    mismatches: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class ReportRow:
+    evolver: str
+    config_hash: str
+    task: str
+    task_settings: dict[str, Any]
+    summary: GroupSummary
+    comparisons: tuple[Comparison, ...] = field(default=())
+
+    def to_json(self) -> dict[str, Any]:
+        s = self.summary
+        row: dict[str, Any] = {
+            "evolver": self.evolver,
+            "config_hash": self.config_hash,
+            "task": self.task,
+            "task_settings": self.task_settings,
+        }
+        row.update({k: v for k, v in asdict(s).items() if k != "success_ci"})
+        row["success_ci_low"], row["success_ci_high"] = s.success_ci
+        row["ert"] = None if math.isinf(s.ert) else s.ert
+        row["published"] = [asdict(c) for c in self.comparisons]
+        return row
+
+
+def _measured(metric: str, s: GroupSummary, settings: dict[str, Any]) -> float | None:
+    if metric == "failures":
+        return float(s.runs - s.solved)
+    if metric == "population":
+        value = settings.get("population_size")
+        return float(value) if isinstance(value, int | float) else None
+    value = getattr(s, metric, None)
+    return float(value) if value is not None else None
+
+
+def _comparisons(records: Sequence[RunRecord], s: GroupSummary) -> tuple[Comparison, ...]:
+    first = records[0]
+    out = []
+    for fig in figures_for(first.task):
+        if fig.compare_with != first.evolver:
+            continue
+        mismatches = tuple(fig.mismatches(first.task_settings, first.evolver_settings))
+        for metric, published in fig.values.items():
+            measured = _measured(metric, s, first.evolver_settings)
+            ratio = measured / published if measured is not None and published else None
+            out.append(
+                Comparison(
+                    method=fig.method,
+                    metric=metric,
+                    published=published,
+                    measured=measured,
+                    ratio=ratio,
+                    source=fig.source,
+                    provenance=fig.provenance,
+                    from_memory=fig.from_memory,
+                    comparable=not mismatches,
+                    mismatches=mismatches,
+                )
+            )
+    return tuple(out)
+
+
+def build(records: Iterable[RunRecord]) -> list[ReportRow]:
+    """Group records and summarise each group (stable order: evolver, task)."""
+    groups: dict[tuple[str, str, str, str], list[RunRecord]] = {}
+    for r in records:
+        key = (r.evolver, r.config_hash, r.task, json.dumps(r.task_settings, sort_keys=True))
+        groups.setdefault(key, []).append(r)
+    rows = []
+    for (evolver, config_hash, task, _), group in sorted(groups.items()):
+        summary = summarize(group)
+        rows.append(
+            ReportRow(
+                evolver,
+                config_hash,
+                task,
+                group[0].task_settings,
+                summary,
+                _comparisons(group, summary),
+            )
+        )
+    return rows
+
+
+def _num(x: float | None, digits: int = 1) -> str:
+    if x is None:
+        return "-"
+    if math.isinf(x):
+        return "inf"
+    return f"{x:,.{digits}f}" if digits else f"{x:,.0f}"
+
+
+def _main_table(rows: Sequence[ReportRow], fmt: str) -> str:
+    labels = {(r.evolver, r.config_hash) for r in rows}
+    names = {r.evolver for r in rows}
+    multi = len(labels) > len(names)  # same evolver under several configurations
+    table = []
+    for r in rows:
+        s = r.summary
+        name = f"{r.evolver} [{r.config_hash[:6]}]" if multi else r.evolver
+        table.append(
+            [
+                name,
+                r.task,
+                s.runs,
+                s.solved,
+                s.failed,
+                f"{s.success_rate:.0%} ({s.success_ci[0]:.0%}-{s.success_ci[1]:.0%})",
+                _num(s.mean_evaluations, 0),
+                _num(s.median_evaluations, 0),
+                _num(s.ert, 0),
+                _num(s.mean_generations),
+                _num(s.mean_hidden_nodes, 2),
+                _num(s.mean_connections, 2),
+            ]
+        )
+    head = [
+        "evolver",
+        "task",
+        "runs",
+        "solved",
+        "failed",
+        "success (95% CI)",
+        "mean evals",
+        "median evals",
+        "ERT",
+        "mean gens",
+        "hidden",
+        "connections",
+    ]
+    return tabulate(table, head, tablefmt="github" if fmt == "markdown" else "simple")
+
+
+def _published_table(rows: Sequence[ReportRow], fmt: str) -> str:
+    table = []
+    for r in rows:
+        for c in r.comparisons:
+            table.append(
+                [
+                    r.evolver,
+                    r.task,
+                    c.method,
+                    c.metric,
+                    _num(c.measured, 2),
+                    _num(c.published, 2),
+                    _num(c.ratio, 2) if c.comparable else "-",
+                    c.provenance + (" (from memory)" if c.from_memory else ""),
+                    "yes" if c.comparable else "no: " + "; ".join(c.mismatches),
+                    c.source,
+                ]
+            )
+    if not table:
+        return ""
+    head = [
+        "evolver",
+        "task",
+        "method",
+        "metric",
+        "measured",
+        "published",
+        "ratio",
+        "provenance",
+        "comparable",
+        "source",
+    ]
+    return tabulate(table, head, tablefmt="github" if fmt == "markdown" else "simple")
+
+
+def render(rows: Sequence[ReportRow], fmt: str = "text") -> str:
+    """The report as text (aligned tables), markdown (GitHub tables) or JSON (a list of rows)."""
+    if fmt == "json":
+        return json.dumps([r.to_json() for r in rows], indent=2)
+    if not rows:
+        return "no runs in the store"
+    parts = [_main_table(rows, fmt)]
+    published = _published_table(rows, fmt)
+    if published:
+        title = "Published figures beside measured values (ratio = measured / published)"
+        parts += ["", f"### {title}" if fmt == "markdown" else title, "", published]
+    notes = (
+        "Evaluations, generations and sizes are over solved runs; success rate and ERT count "
+        "every run (ERT = all evaluations / solved runs)."
+    )
+    parts += ["", notes]
+    return "\n".join(parts)

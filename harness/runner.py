@@ -1,0 +1,258 @@
+"""One run of one evolver on one task, with harness-owned counting and an exact budget.
+
+The loop: ``ask`` a batch, validate and compile every network, evaluate them (each
+network = one counted evaluation; the batch is cut so that no evaluation goes past the
+budget), run the task's success test on the batch's best network (counted apart), log the
+generation, ``tell`` the results. The run ends when the success test passes (solved), the
+budget is spent (unsolved), or the evolver misbehaves (failed, with the reason).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import time
+from collections.abc import Mapping, Sequence
+from dataclasses import asdict, dataclass, field
+from typing import Any
+
+from . import provenance
+from .compiled import compile_network
+from .errors import NetworkError
+from .evolver import EvolverSpec
+from .network import Network, to_dict, validate
+
+SOLVED, UNSOLVED, FAILED = "solved", "unsolved", "failed"
+
+
+@dataclass(frozen=True)
+class RunSpec:
+    """Everything that identifies a run; the same spec always gives the same result."""
+
+    evolver: EvolverSpec
+    task: str
+    run_index: int
+    campaign_seed: int
+    budget: int | None = None  # None: the task's default budget
+    task_settings: Mapping[str, Any] = field(default_factory=dict)
+
+    @property
+    def key(self) -> str:
+        """Identity in the results store: a finished run with this key is not run again."""
+        ident = {
+            "evolver": self.evolver.name,
+            "config": self.evolver.config_hash,
+            "task": self.task,
+            "settings": dict(sorted(self.task_settings.items())),
+            "seed": self.campaign_seed,
+            "run": self.run_index,
+            "budget": self.budget,
+        }
+        return hashlib.sha256(json.dumps(ident, sort_keys=True).encode()).hexdigest()[:24]
+
+
+@dataclass
+class GenerationLog:
+    """One generation: fitness of its best and mean candidate, evaluations so far, best size."""
+
+    generation: int
+    evaluations: int
+    best_fitness: float
+    mean_fitness: float
+    best_hidden: int
+    best_connections: int
+    stats: dict[str, float] = field(default_factory=dict)
+
+
+@dataclass
+class RunRecord:
+    """The outcome of a run. ``evaluations`` excludes success tests (``success_evaluations``).
+
+    ``best_network`` is the network that passed the success test, or the fittest one
+    evaluated when the run did not solve; ``hidden_nodes``/``connections`` are its size.
+    ``evolver_settings`` is the evolver's effective configuration (defaults included) when
+    it offers ``settings()``. ``timing`` holds wall, evolver and harness seconds.
+    """
+
+    evolver: str
+    config: dict[str, Any]
+    config_hash: str
+    task: str
+    task_settings: dict[str, Any]
+    run_index: int
+    campaign_seed: int
+    seed: int
+    task_seed: int
+    budget: int
+    status: str = UNSOLVED
+    failure: str | None = None
+    generations: int = 0
+    evaluations: int = 0
+    success_evaluations: int = 0
+    best_fitness: float | None = None
+    best_network: dict[str, Any] | None = None
+    hidden_nodes: int | None = None
+    connections: int | None = None
+    success_details: dict[str, Any] = field(default_factory=dict)
+    evolver_settings: dict[str, Any] = field(default_factory=dict)
+    log: list[GenerationLog] = field(default_factory=list)
+    timing: dict[str, float] = field(default_factory=dict)
+    versions: dict[str, str | None] = field(default_factory=dict)
+    host: str = ""
+
+    @property
+    def solved(self) -> bool:
+        return self.status == SOLVED
+
+    def to_dict(self) -> dict[str, Any]:
+        return asdict(self)
+
+    @classmethod
+    def from_dict(cls, doc: Mapping[str, Any]) -> RunRecord:
+        data = dict(doc)
+        data["log"] = [GenerationLog(**g) for g in data.get("log", [])]
+        return cls(**data)
+
+
+class _EvolverFault(Exception):
+    """The evolver broke the contract; the message is the recorded reason."""
+
+
+class _Clock:
+    """Accumulates the seconds spent inside the evolver."""
+
+    def __init__(self) -> None:
+        self.seconds = 0.0
+
+    def call(self, what: str, fn, *args):
+        start = time.perf_counter()
+        try:
+            return fn(*args)
+        except Exception as exc:  # any failure of plugin code ends the run, not the campaign
+            raise _EvolverFault(f"{what} raised {type(exc).__name__}: {exc}") from exc
+        finally:
+            self.seconds += time.perf_counter() - start
+
+
+def _checked_batch(batch: Any, generation: int, inputs: int, outputs: int) -> list[Network]:
+    if not isinstance(batch, Sequence) or isinstance(batch, str | bytes):
+        raise _EvolverFault(
+            f"ask() in generation {generation} returned {type(batch).__name__}, "
+            "expected a list of Network"
+        )
+    if len(batch) == 0:
+        raise _EvolverFault(f"ask() returned an empty batch in generation {generation}")
+    for k, net in enumerate(batch):
+        where = f"candidate {k} of generation {generation}"
+        if not isinstance(net, Network):
+            raise _EvolverFault(f"{where} is a {type(net).__name__}, not a Network")
+        try:
+            validate(net, inputs, outputs, where=where)
+        except NetworkError as exc:
+            raise _EvolverFault(f"invalid network: {exc}") from None
+    return list(batch)
+
+
+def run_one(spec: RunSpec) -> RunRecord:
+    """Execute one run (see module docstring). Never raises for evolver faults."""
+    from neuroyard.tasks import make  # tasks sit above the harness core in the layering
+
+    from .seeds import evolver_seed, task_seed
+
+    wall_start = time.perf_counter()
+    seed = evolver_seed(spec.campaign_seed, spec.evolver.name, spec.task, spec.run_index)
+    t_seed = task_seed(spec.campaign_seed, spec.task, spec.run_index)
+    task = make(spec.task, seed=t_seed, **spec.task_settings)
+    task_spec = task.spec
+    budget = spec.budget if spec.budget is not None else task_spec.default_budget
+    record = RunRecord(
+        evolver=spec.evolver.name,
+        config=dict(spec.evolver.config),
+        config_hash=spec.evolver.config_hash,
+        task=spec.task,
+        task_settings=dict(task.settings),
+        run_index=spec.run_index,
+        campaign_seed=spec.campaign_seed,
+        seed=seed,
+        task_seed=t_seed,
+        budget=budget,
+        versions=provenance.versions(),
+        host=provenance.host(),
+    )
+    clock = _Clock()
+    best_fitness = -math.inf
+    try:
+        evolver = clock.call("building the evolver", spec.evolver.build)
+        clock.call("start()", evolver.start, task.problem(budget), seed)
+        if hasattr(evolver, "settings"):
+            record.evolver_settings = _settings(evolver, clock)
+        while record.evaluations < budget:
+            generation = record.generations
+            batch = _checked_batch(
+                clock.call("ask()", evolver.ask), generation, task_spec.inputs, task_spec.outputs
+            )
+            batch = batch[: budget - record.evaluations]
+            compiled = [compile_network(net) for net in batch]
+            results = task.evaluate_batch(compiled)
+            record.evaluations += len(batch)
+            record.generations += 1
+            fitness = [r.fitness for r in results]
+            top = max(range(len(fitness)), key=fitness.__getitem__)
+            check = task.success_test(compiled[top], results[top])
+            record.success_evaluations += check.evaluations
+            champion = batch[top]
+            if check.solved or fitness[top] > best_fitness:
+                best_fitness = fitness[top]
+                record.best_fitness = fitness[top]
+                record.best_network = to_dict(champion)
+                record.hidden_nodes = champion.hidden_nodes
+                record.connections = champion.enabled_connections
+                record.success_details = dict(check.details)
+            stats = _stats(evolver, clock)
+            record.log.append(
+                GenerationLog(
+                    generation=generation,
+                    evaluations=record.evaluations,
+                    best_fitness=fitness[top],
+                    mean_fitness=math.fsum(fitness) / len(fitness),
+                    best_hidden=champion.hidden_nodes,
+                    best_connections=champion.enabled_connections,
+                    stats=stats,
+                )
+            )
+            if check.solved:
+                record.status = SOLVED
+                break
+            if record.evaluations < budget:
+                clock.call("tell()", evolver.tell, tuple(results))
+    except _EvolverFault as fault:
+        record.status = FAILED
+        record.failure = str(fault)
+    wall = time.perf_counter() - wall_start
+    record.timing = {"wall": wall, "evolver": clock.seconds, "harness": wall - clock.seconds}
+    return record
+
+
+def _settings(evolver: Any, clock: _Clock) -> dict[str, Any]:
+    settings = clock.call("settings()", evolver.settings)
+    if not isinstance(settings, Mapping):
+        raise _EvolverFault(f"settings() returned {type(settings).__name__}, expected a mapping")
+    try:
+        return json.loads(json.dumps(dict(settings)))
+    except (TypeError, ValueError) as exc:
+        raise _EvolverFault(f"settings() is not JSON-serialisable: {exc}") from None
+
+
+def _stats(evolver: Any, clock: _Clock) -> dict[str, float]:
+    if not hasattr(evolver, "stats"):
+        return {}
+    stats = clock.call("stats()", evolver.stats)
+    if not isinstance(stats, Mapping):
+        raise _EvolverFault(f"stats() returned {type(stats).__name__}, expected a mapping")
+    out: dict[str, float] = {}
+    for key, value in stats.items():
+        if isinstance(value, bool) or not isinstance(value, int | float):
+            raise _EvolverFault(f"stats() value {key!r} is {value!r}, expected a number")
+        out[str(key)] = float(value)
+    return out

@@ -1,0 +1,98 @@
+"""Summary statistics of a group of runs (scipy where a library does it).
+
+Conventions: success rate over all runs (failed and unsolved runs count as not solved)
+with a 95% Wilson score interval; evaluations, generations and network size to solve are
+taken over solved runs only; ERT (expected running time) = all evaluations spent, solved
+or not, divided by the number of solved runs (infinite when none solved).
+"""
+
+from __future__ import annotations
+
+import math
+import statistics
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from scipy.stats import binomtest
+
+from .runner import RunRecord
+
+
+def wilson_interval(successes: int, trials: int, confidence: float = 0.95) -> tuple[float, float]:
+    """Wilson score interval of a success proportion (scipy.stats.binomtest)."""
+    if trials == 0:
+        return (0.0, 1.0)
+    ci = binomtest(successes, trials).proportion_ci(confidence_level=confidence, method="wilson")
+    return (float(ci.low), float(ci.high))
+
+
+def expected_running_time(evaluations: Sequence[int], solved: Sequence[bool]) -> float:
+    """ERT: total evaluations of all runs / number of solved runs (inf if none solved)."""
+    wins = sum(solved)
+    return math.fsum(evaluations) / wins if wins else math.inf
+
+
+def _mean(xs: Sequence[float]) -> float | None:
+    return statistics.fmean(xs) if xs else None
+
+
+def _median(xs: Sequence[float]) -> float | None:
+    return float(statistics.median(xs)) if xs else None
+
+
+def _sd(xs: Sequence[float]) -> float | None:
+    return statistics.stdev(xs) if len(xs) > 1 else None
+
+
+@dataclass(frozen=True)
+class GroupSummary:
+    """Figures of one (evolver, task) group; ``None`` where no solved run gives a value."""
+
+    runs: int
+    solved: int
+    failed: int
+    success_rate: float
+    success_ci: tuple[float, float]
+    ert: float
+    mean_evaluations: float | None
+    sd_evaluations: float | None
+    median_evaluations: float | None
+    worst_evaluations: float | None
+    mean_generations: float | None
+    mean_hidden_nodes: float | None
+    sd_hidden_nodes: float | None
+    mean_connections: float | None
+    sd_connections: float | None
+    mean_generalization: float | None
+    mean_success_evaluations: float | None
+
+
+def summarize(records: Sequence[RunRecord]) -> GroupSummary:
+    wins = [r for r in records if r.solved]
+    evals = [float(r.evaluations) for r in wins]
+    hidden = [float(r.hidden_nodes) for r in wins if r.hidden_nodes is not None]
+    conns = [float(r.connections) for r in wins if r.connections is not None]
+    general = [
+        float(r.success_details["generalization"])
+        for r in wins
+        if "generalization" in r.success_details
+    ]
+    return GroupSummary(
+        runs=len(records),
+        solved=len(wins),
+        failed=sum(1 for r in records if r.status == "failed"),
+        success_rate=len(wins) / len(records) if records else 0.0,
+        success_ci=wilson_interval(len(wins), len(records)),
+        ert=expected_running_time([r.evaluations for r in records], [r.solved for r in records]),
+        mean_evaluations=_mean(evals),
+        sd_evaluations=_sd(evals),
+        median_evaluations=_median(evals),
+        worst_evaluations=max(evals) if evals else None,
+        mean_generations=_mean([float(r.generations) for r in wins]),
+        mean_hidden_nodes=_mean(hidden),
+        sd_hidden_nodes=_sd(hidden),
+        mean_connections=_mean(conns),
+        sd_connections=_sd(conns),
+        mean_generalization=_mean(general),
+        mean_success_evaluations=_mean([float(r.success_evaluations) for r in records]),
+    )
