@@ -14,6 +14,7 @@ import itertools
 
 import numba
 import numpy as np
+
 from neuroyard.harness.compiled import CompiledNetwork, new_state, reset, step
 from neuroyard.harness.errors import TaskError
 from neuroyard.harness.evolver import Evaluation
