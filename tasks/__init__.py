@@ -1,6 +1,9 @@
 """The neuroyard task suite. Importing this package registers the built-in tasks."""
 
-from . import logic  # noqa: F401  (registers xor-v1, parity-v1)
+from . import (
+    logic,  # noqa: F401  (registers xor-v1, parity-v1)
+    pole,  # noqa: F401
+)
 from .base import SuccessCheck, Task, TaskSpec
 from .registry import make, register, specs, task_ids
 

@@ -1,0 +1,119 @@
+"""Balancing episodes: dynamics and network together in one numba call.
+
+One control step: the network reads the observed state variables (each divided by its
+scale), steps once, its first output is mapped to a force, the force is held for
+``substeps`` integration steps, then the failure limits are checked. The count of
+control steps completed inside the limits is the number of steps balanced.
+
+Failure: ``|x| > track_limit`` or any ``|theta_i| > failure_angle`` (a NaN state also
+fails). For the damped fitness the kernel also returns the sum, over the last
+``JIGGLE_WINDOW`` balanced steps, of ``|x| + |x_dot| + |theta_1| + |theta_dot_1|`` in raw
+units (Gruau, Whitley & Pyeatt 1996; LITERATURE.md sec. 2.7, from memory), or 0 when
+fewer steps were balanced.
+"""
+
+from __future__ import annotations
+
+from typing import NamedTuple
+
+import numba
+import numpy as np
+
+from neuroyard.harness.compiled import CompiledNetwork, new_state, step
+
+from .physics import Physics, advance, new_workspace
+
+# Gruau, Whitley & Pyeatt 1996: the damped fitness looks at the last 100 steps
+# (LITERATURE.md sec. 2.7, from memory, MEMORY-high).
+JIGGLE_WINDOW = 100
+
+# Force mapping codes used inside the kernels.
+FORCE_MAPPINGS: dict[str, int] = {"linear": 0, "bang-bang": 1}
+
+
+class EpisodeRules(NamedTuple):
+    """How the network sees and moves the cart, and when an episode fails.
+
+    ``obs_index``: state indices the network sees, in input order; ``obs_scale``: the
+    divisor of each. ``force_mapping``: 0 = linear, F = max_force * clip(2 out - 1, -1, 1);
+    1 = bang-bang, F = +max_force if out > 0.5 else -max_force. Lengths in m, angles in rad.
+    """
+
+    obs_index: np.ndarray  # uint32
+    obs_scale: np.ndarray  # float64
+    force_mapping: int
+    max_force: float
+    substeps: int
+    track_limit: float
+    failure_angle: float
+
+
+@numba.njit(cache=True)
+def balance(
+    net: CompiledNetwork,
+    phys: Physics,
+    rules: EpisodeRules,
+    start: np.ndarray,
+    max_steps: int,
+    record: np.ndarray,
+) -> tuple[int, float]:
+    """Run one episode of at most ``max_steps`` control steps from ``start``.
+
+    Returns (steps balanced, jiggle sum of the last JIGGLE_WINDOW steps). When ``record``
+    has rows, row 0 gets the start state and row k the state after balanced step k (rows
+    past the end of the episode are left untouched); pass a (0, n) array to skip.
+    """
+    values, scratch = new_state(net)
+    ws = new_workspace(phys)
+    state = start.copy()
+    n_poles = phys.masses.shape[0]
+    n_obs = rules.obs_index.shape[0]
+    inputs = np.empty(n_obs, dtype=np.float64)
+    outputs = np.zeros(net.out_idx.shape[0], dtype=np.float64)
+    window = np.zeros(JIGGLE_WINDOW, dtype=np.float64)
+    keep = record.shape[0]
+    if keep > 0:
+        record[0] = state
+    steps = 0
+    while steps < max_steps:
+        for j in range(n_obs):
+            inputs[j] = state[rules.obs_index[j]] / rules.obs_scale[j]
+        step(net, values, scratch, inputs, outputs)
+        if rules.force_mapping == 1:
+            force = rules.max_force if outputs[0] > 0.5 else -rules.max_force
+        else:
+            force = rules.max_force * min(1.0, max(-1.0, 2.0 * outputs[0] - 1.0))
+        for _ in range(rules.substeps):
+            advance(phys, state, force, ws)
+        failed = not abs(state[0]) <= rules.track_limit
+        for i in range(n_poles):
+            failed = failed or not abs(state[2 + 2 * i]) <= rules.failure_angle
+        if failed:
+            break
+        window[steps % JIGGLE_WINDOW] = (
+            abs(state[0]) + abs(state[1]) + abs(state[2]) + abs(state[3])
+        )
+        steps += 1
+        if steps < keep:
+            record[steps] = state
+    jiggle = window.sum() if steps >= JIGGLE_WINDOW else 0.0
+    return steps, jiggle
+
+
+@numba.njit(cache=True)
+def count_balanced(
+    net: CompiledNetwork,
+    phys: Physics,
+    rules: EpisodeRules,
+    starts: np.ndarray,
+    max_steps: int,
+) -> int:
+    """Number of rows of ``starts`` from which ``net`` balances all ``max_steps`` steps."""
+    n_state = starts.shape[1]
+    no_record = np.empty((0, n_state), dtype=np.float64)
+    passed = 0
+    for k in range(starts.shape[0]):
+        steps, _ = balance(net, phys, rules, starts[k], max_steps, no_record)
+        if steps == max_steps:
+            passed += 1
+    return passed
