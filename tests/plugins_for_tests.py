@@ -1,0 +1,88 @@
+"""Evolvers used by the tests: well-behaved ones that count, and broken ones.
+
+Not part of the package; tests put this folder on sys.path and load them by
+``plugins_for_tests:ClassName``.
+"""
+
+from __future__ import annotations
+
+from neuroyard.harness.network import Connection, Network, Node
+
+
+def constant_network(weight: float = 0.0, activation: str = "neat_sigmoid") -> Network:
+    """A 2-input network whose output ignores its inputs (never solves XOR)."""
+    nodes = (Node(0, "input"), Node(1, "input"), Node(2, "bias"), Node(3, "output", activation))
+    return Network(nodes, (Connection(2, 3, weight),))
+
+
+class Constant:
+    """Asks ``batch`` copies of a constant network forever; counts what it is told."""
+
+    def __init__(self, batch: int = 7) -> None:
+        self.batch = batch
+        self.asked = 0
+        self.told = 0
+
+    def start(self, problem, seed):
+        self.problem = problem
+
+    def ask(self):
+        self.asked += self.batch
+        return [constant_network(0.1 * k) for k in range(self.batch)]
+
+    def tell(self, evaluations):
+        assert len(evaluations) == self.batch
+        self.told += len(evaluations)
+
+
+class RaisesIn:
+    """Raises in the named method (start, ask, tell or stats) at generation ``when``."""
+
+    def __init__(self, method: str = "ask", when: int = 0) -> None:
+        self.method, self.when, self.generation = method, when, 0
+
+    def _maybe(self, name):
+        if name == self.method and self.generation >= self.when:
+            raise RuntimeError(f"boom in {name}")
+
+    def start(self, problem, seed):
+        self._maybe("start")
+
+    def ask(self):
+        self._maybe("ask")
+        return [constant_network()]
+
+    def tell(self, evaluations):
+        self._maybe("tell")
+        self.generation += 1
+
+    def stats(self):
+        self._maybe("stats")
+        return {"generation": self.generation}
+
+
+class Returns:
+    """ask() returns a fixed bad value: 'empty', 'none', 'dict', 'invalid' or 'wrong_inputs'."""
+
+    def __init__(self, what: str = "empty") -> None:
+        self.what = what
+
+    def start(self, problem, seed):
+        pass
+
+    def ask(self):
+        if self.what == "empty":
+            return []
+        if self.what == "none":
+            return None
+        if self.what == "dict":
+            return [{"nodes": []}]
+        if self.what == "invalid":
+            return [constant_network(activation="no-such-function")]
+        if self.what == "wrong_inputs":
+            nodes = (Node(0, "input"), Node(1, "output", "sigmoid"))
+            return [Network(nodes, (Connection(0, 1, 1.0),))]
+        raise ValueError(self.what)
+
+    def tell(self, evaluations):
+        pass

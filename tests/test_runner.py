@@ -1,0 +1,128 @@
+"""Runner: harness-owned counting, the exact budget, seeds, broken evolvers."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from neuroyard.harness import seeds
+from neuroyard.harness.evolver import EvolverSpec
+from neuroyard.harness.runner import RunSpec, run_one
+from neuroyard.tasks.logic import Xor
+
+HERE = Path(__file__).parent
+
+
+@pytest.fixture(autouse=True)
+def _plugins_importable(monkeypatch):
+    monkeypatch.syspath_prepend(str(HERE))
+
+
+@pytest.fixture
+def counted_xor(monkeypatch):
+    """Count every call of the XOR fitness function, independently of the runner."""
+    calls = {"evaluate": 0, "success": 0}
+    evaluate, success = Xor.evaluate, Xor.success_test
+
+    def counting_evaluate(self, net):
+        calls["evaluate"] += 1
+        return evaluate(self, net)
+
+    def counting_success(self, net, evaluation):
+        calls["success"] += 1
+        return success(self, net, evaluation)
+
+    monkeypatch.setattr(Xor, "evaluate", counting_evaluate)
+    monkeypatch.setattr(Xor, "success_test", counting_success)
+    return calls
+
+
+def spec(name, budget=None, run_index=0, seed=1, **config):
+    return RunSpec(EvolverSpec(name, config), "xor-v1", run_index, seed, budget)
+
+
+def test_budget_is_exact_and_every_evaluation_counted(counted_xor):
+    # batches of 7 against a budget of 20: 7 + 7 + 6, never an evaluation past the budget
+    record = run_one(spec("plugins_for_tests:Constant", budget=20, batch=7))
+    assert record.status == "unsolved"
+    assert record.evaluations == 20 == counted_xor["evaluate"]
+    assert record.generations == 3
+    assert [g.evaluations for g in record.log] == [7, 14, 20]
+    # one success test per generation on its best candidate, counted apart
+    assert record.success_evaluations == 3 == counted_xor["success"]
+
+
+def test_solved_run_stops_at_the_solving_generation(counted_xor):
+    record = run_one(spec("rwg", budget=100_000, batch_size=50))
+    assert record.status == "solved"
+    assert record.evaluations == 50 * record.generations == counted_xor["evaluate"]
+    assert record.log[-1].evaluations == record.evaluations
+    assert record.best_network is not None
+    assert record.hidden_nodes == 2 and record.connections == 9
+
+
+def test_log_and_versions_are_recorded():
+    record = run_one(spec("hill-climber", budget=200))
+    assert len(record.log) == record.generations
+    assert all(g.mean_fitness <= g.best_fitness for g in record.log)
+    assert "parent_fitness" in record.log[-1].stats
+    assert {"python", "numpy", "numba", "neuroyard", "git_commit"} <= set(record.versions)
+    assert record.evolver_settings["offspring"] == 20
+    assert record.timing["wall"] >= record.timing["evolver"] >= 0
+
+
+def test_same_spec_same_result_different_index_different_seed():
+    a = run_one(spec("rwg", budget=3000, run_index=4))
+    b = run_one(spec("rwg", budget=3000, run_index=4))
+    c = run_one(spec("rwg", budget=3000, run_index=5))
+    assert a.seed == b.seed != c.seed
+    assert (a.evaluations, a.best_network, a.log) == (b.evaluations, b.best_network, b.log)
+
+
+def test_seeds_depend_only_on_the_run_key():
+    s = seeds.evolver_seed(1, "rwg", "xor-v1", 3)
+    assert s == seeds.evolver_seed(1, "rwg", "xor-v1", 3)
+    assert s != seeds.evolver_seed(2, "rwg", "xor-v1", 3)
+    assert s != seeds.evolver_seed(1, "neat", "xor-v1", 3)
+    assert s != seeds.evolver_seed(1, "rwg", "parity-v1", 3)
+    # the task instance is shared by all evolvers in run i (paired comparisons)
+    assert seeds.task_seed(1, "xor-v1", 3) == seeds.task_seed(1, "xor-v1", 3)
+    assert seeds.task_seed(1, "xor-v1", 3) != seeds.task_seed(1, "xor-v1", 4)
+    assert 0 <= s < 2**63
+
+
+@pytest.mark.parametrize(
+    ("config", "reason"),
+    [
+        ({"method": "start"}, "start() raised RuntimeError: boom in start"),
+        ({"method": "ask", "when": 2}, "ask() raised RuntimeError: boom in ask"),
+        ({"method": "tell", "when": 1}, "tell() raised RuntimeError: boom in tell"),
+        ({"method": "stats", "when": 1}, "stats() raised RuntimeError: boom in stats"),
+    ],
+)
+def test_an_evolver_that_raises_fails_its_run(config, reason):
+    record = run_one(spec("plugins_for_tests:RaisesIn", budget=100, **config))
+    assert record.status == "failed"
+    assert record.failure == reason
+    assert record.evaluations == record.generations  # batches of one, counted up to the fault
+
+
+@pytest.mark.parametrize(
+    ("what", "reason"),
+    [
+        ("empty", "ask() returned an empty batch in generation 0"),
+        ("none", "ask() in generation 0 returned NoneType, expected a list of Network"),
+        ("dict", "candidate 0 of generation 0 is a dict, not a Network"),
+        ("invalid", "invalid network: candidate 0 of generation 0: node 3: unknown activation"),
+        (
+            "wrong_inputs",
+            "invalid network: candidate 0 of generation 0: has 1 input nodes, the task needs 2",
+        ),
+    ],
+)
+def test_an_evolver_that_returns_garbage_fails_its_run(what, reason):
+    record = run_one(spec("plugins_for_tests:Returns", budget=100, what=what))
+    assert record.status == "failed"
+    assert record.failure.startswith(reason)
+    assert record.evaluations == 0

@@ -1,0 +1,110 @@
+"""Results store: one transaction per run, resume, survival of a killed process, bad files."""
+
+from __future__ import annotations
+
+import signal
+import sqlite3
+import subprocess
+import sys
+import time
+
+import pytest
+
+from neuroyard.harness.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.harness.errors import StoreError
+from neuroyard.harness.evolver import EvolverSpec
+from neuroyard.harness.store import ResultStore
+
+
+def plan(runs=4, seed=3):
+    return CampaignPlan(
+        [EvolverSpec("rwg", {"batch_size": 50})], [TaskChoice("xor-v1")], runs, seed, 5000
+    )
+
+
+def test_round_trip_and_resume_skips_finished_runs(tmp_path):
+    path = tmp_path / "r.db"
+    with ResultStore(path) as store:
+        assert execute(plan(runs=3), store, progress=False) == (3, 0)
+        first = [r.to_dict() for r in store.records()]
+    with ResultStore(path) as store:
+        # the same campaign with more runs: only the new ones run
+        assert execute(plan(runs=5), store, progress=False) == (2, 3)
+        again = [r.to_dict() for r in store.records()]
+    assert again[:3] == first
+    assert len(again) == 5
+    assert all(r["log"] for r in again)
+
+
+def test_parallel_workers_give_the_same_records(tmp_path):
+    with ResultStore(tmp_path / "a.db") as a, ResultStore(tmp_path / "b.db") as b:
+        execute(plan(), a, workers=1, progress=False)
+        execute(plan(), b, workers=2, progress=False)
+        strip = lambda r: {k: v for k, v in r.to_dict().items() if k not in ("timing", "host")}  # noqa: E731
+        assert [strip(r) for r in a.records()] == [strip(r) for r in b.records()]
+
+
+def test_store_left_by_a_killed_process_keeps_every_finished_run(tmp_path):
+    path = tmp_path / "killed.db"
+    cmd = [
+        sys.executable,
+        "-m",
+        "neuroyard.harness.cli",
+        "run",
+        "--evolver",
+        "rwg",
+        "--task",
+        "xor-v1",
+        "--runs",
+        "100",
+        "--seed",
+        "9",
+        "--budget",
+        "300",
+        "--param",
+        "batch_size=5",
+        "--store",
+        str(path),
+        "--quiet",
+    ]
+    proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    deadline = time.time() + 60
+    stored = 0
+    while time.time() < deadline and stored < 5:
+        time.sleep(0.2)
+        if path.exists():
+            try:
+                stored = sqlite3.connect(path).execute("SELECT count(*) FROM runs").fetchone()[0]
+            except sqlite3.Error:
+                stored = 0  # schema not written yet
+    proc.send_signal(signal.SIGKILL)
+    proc.wait()
+    assert stored >= 5, proc.stderr.read().decode()
+    assert proc.returncode == -signal.SIGKILL  # killed mid-campaign, not finished
+    with ResultStore(path) as store:
+        kept = list(store.records())
+        assert len(kept) >= stored
+        assert all(len(r.log) == r.generations for r in kept)  # no half-written run
+        resumed = CampaignPlan(
+            [EvolverSpec("rwg", {"batch_size": 5})], [TaskChoice("xor-v1")], 100, 9, 300
+        )
+        done, skipped = execute(resumed, store, progress=False)
+        assert skipped == len(kept) and done + skipped == 100
+        assert sorted(r.run_index for r in store.records()) == list(range(100))
+
+
+def test_bad_store_files_give_clear_errors(tmp_path):
+    junk = tmp_path / "junk.db"
+    junk.write_text("this is not a database" * 100)
+    with pytest.raises(StoreError, match="junk.db: not a neuroyard store"):
+        ResultStore(junk)
+    other = tmp_path / "other.db"
+    sqlite3.connect(other).execute("CREATE TABLE t (x)").connection.commit()
+    with pytest.raises(StoreError, match="not a neuroyard store"):
+        ResultStore(other)
+    with pytest.raises(StoreError, match="no such file"):
+        ResultStore(tmp_path / "missing.db", create=False)
+    with pytest.raises(StoreError, match="is a folder"):
+        ResultStore(tmp_path)
+    # the failed opens changed nothing
+    assert junk.read_text().startswith("this is not a database")
