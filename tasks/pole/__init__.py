@@ -4,9 +4,9 @@ Importing this package registers ``pole1-markov-v1``, ``pole1-nonmarkov-v1``,
 ``pole2-markov-v1`` (DPV) and ``pole2-nonmarkov-v1`` (DPNV).
 """
 
-from .episodes import EpisodeRules, balance, count_balanced
+from .episodes import EpisodeRules, balance, count_balanced, failed
 from .generalization import generalization_starts
-from .physics import Physics, make_physics, mechanical_energy, simulate
+from .physics import Physics, make_physics, simulate
 from .tasks import (
     DoublePoleMarkov,
     DoublePoleNonMarkov,
@@ -25,8 +25,8 @@ __all__ = [
     "SinglePoleNonMarkov",
     "balance",
     "count_balanced",
+    "failed",
     "generalization_starts",
     "make_physics",
-    "mechanical_energy",
     "simulate",
 ]

@@ -49,6 +49,17 @@ class EpisodeRules(NamedTuple):
 
 
 @numba.njit(cache=True)
+def failed(rules: EpisodeRules, state: np.ndarray) -> bool:
+    """True when the cart is off the track or a pole is past the failure angle (or NaN)."""
+    if not abs(state[0]) <= rules.track_limit:
+        return True
+    for k in range(2, state.shape[0], 2):  # noqa: SIM110 - no generators in numba
+        if not abs(state[k]) <= rules.failure_angle:
+            return True
+    return False
+
+
+@numba.njit(cache=True)
 def balance(
     net: CompiledNetwork,
     phys: Physics,
@@ -66,7 +77,6 @@ def balance(
     values, scratch = new_state(net)
     ws = new_workspace(phys)
     state = start.copy()
-    n_poles = phys.masses.shape[0]
     n_obs = rules.obs_index.shape[0]
     inputs = np.empty(n_obs, dtype=np.float64)
     outputs = np.zeros(net.out_idx.shape[0], dtype=np.float64)
@@ -85,10 +95,7 @@ def balance(
             force = rules.max_force * min(1.0, max(-1.0, 2.0 * outputs[0] - 1.0))
         for _ in range(rules.substeps):
             advance(phys, state, force, ws)
-        failed = not abs(state[0]) <= rules.track_limit
-        for i in range(n_poles):
-            failed = failed or not abs(state[2 + 2 * i]) <= rules.failure_angle
-        if failed:
+        if failed(rules, state):
             break
         window[steps % JIGGLE_WINDOW] = (
             abs(state[0]) + abs(state[1]) + abs(state[2]) + abs(state[3])

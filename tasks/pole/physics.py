@@ -190,23 +190,3 @@ def simulate(phys: Physics, start: np.ndarray, forces: np.ndarray, substeps: int
             advance(phys, state, forces[k], ws)
         out[k + 1] = state
     return out
-
-
-def mechanical_energy(phys: Physics, state: np.ndarray) -> float:
-    """Kinetic plus potential energy (J) of a state, hinge height as zero potential.
-
-    Uniform rods: centre of pole i at (x + l_i sin th_i, l_i cos th_i), moment of inertia
-    about the centre m_i (2 l_i)^2 / 12. Conserved when friction and force are zero.
-    """
-    x_dot = float(state[1])
-    energy = 0.5 * phys.cart_mass * x_dot * x_dot
-    for i in range(phys.masses.shape[0]):
-        m = float(phys.masses[i])
-        half = float(phys.half_lengths[i])
-        th = float(state[2 + 2 * i])
-        th_dot = float(state[3 + 2 * i])
-        vx = x_dot + half * th_dot * np.cos(th)
-        vy = -half * th_dot * np.sin(th)
-        energy += 0.5 * m * (vx * vx + vy * vy) + 0.5 * (m * half * half / 3.0) * th_dot**2
-        energy += m * phys.gravity * half * np.cos(th)
-    return energy

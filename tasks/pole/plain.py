@@ -35,7 +35,7 @@ def plain_derivatives(phys: Physics, state: Sequence[float], force: float) -> li
             + 0.75 * m * math.cos(th) * (hinge + g * math.sin(th))
         )
         effective_masses.append(m * (1.0 - 0.75 * math.cos(th) ** 2))
-    sign = (state[1] > 0.0) - (state[1] < 0.0)
+    sign = (float(state[1]) > 0.0) - (float(state[1]) < 0.0)
     x_acc = (force - phys.cart_friction * sign + sum(effective_forces)) / (
         phys.cart_mass + sum(effective_masses)
     )
