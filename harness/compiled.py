@@ -13,13 +13,14 @@ all inside one ``@njit`` function, so an episode is one call from Python.
 
 from __future__ import annotations
 
+from itertools import accumulate
 from typing import NamedTuple
 
 import numba
 import numpy as np
 
 from .activations import CODES, apply
-from .network import Network, topological_order
+from .network import Network, check
 
 
 class CompiledNetwork(NamedTuple):
@@ -38,42 +39,32 @@ class CompiledNetwork(NamedTuple):
     out_idx: np.ndarray  # uint32[n_outputs], slots of the output nodes in list order
 
 
-def compile_network(network: Network) -> CompiledNetwork:
-    """Flatten a *valid* network (see :func:`~neuroyard.harness.network.validate`)."""
-    nodes = network.nodes
-    recurrent = network.mode == "recurrent"
-    inputs = [n.id for n in nodes if n.kind == "input"]
-    biases = [n.id for n in nodes if n.kind == "bias"]
-    if recurrent:
-        computed = [n.id for n in nodes if n.kind in ("hidden", "output")]
-    else:
-        computed = topological_order(network)
-    slot = {nid: k for k, nid in enumerate(inputs + biases + computed)}
-    by_id = {n.id: n for n in nodes}
-    first = len(inputs) + len(biases)
-    incoming: list[list[tuple[int, float]]] = [[] for _ in computed]
-    for c in network.connections:
-        if c.enabled:
-            incoming[slot[c.target] - first].append((slot[c.source], c.weight))
-    counts = [len(x) for x in incoming]
-    in_ptr = np.zeros(len(computed) + 1, dtype=np.uint32)
-    np.cumsum(counts, out=in_ptr[1:])
-    flat = [e for edges in incoming for e in edges]
-    in_src = np.array([s for s, _ in flat], dtype=np.uint32)
-    in_w = np.array([w for _, w in flat], dtype=np.float64)
-    comp_nodes = [by_id[i] for i in computed]
+def compile_network(
+    network: Network, inputs: int | None = None, outputs: int | None = None, where: str = "network"
+) -> CompiledNetwork:
+    """Check ``network`` (all rules of :func:`~neuroyard.harness.network.check`, raising
+    :class:`NetworkError` naming the offender) and flatten it into a CompiledNetwork."""
+    layout = check(network, inputs, outputs, where)
+    first = len(layout.inputs) + len(layout.biases)
+    slot = {nid: k for k, nid in enumerate(layout.inputs + layout.biases + layout.computed)}
+    counts = accumulate((len(edges) for edges in layout.incoming), initial=0)
+    in_ptr = np.array(list(counts), dtype=np.uint32)
+    in_src = np.array([slot[s] for edges in layout.incoming for s, _ in edges], dtype=np.uint32)
+    in_w = np.array([w for edges in layout.incoming for _, w in edges], dtype=np.float64)
+    by_id = {n.id: n for n in network.nodes}
+    nodes = [by_id[nid] for nid in layout.computed]
     return CompiledNetwork(
-        recurrent=recurrent,
-        n_inputs=len(inputs),
-        n_bias=len(biases),
-        n_nodes=len(slot),
-        act=np.array([CODES[n.activation] for n in comp_nodes], dtype=np.uint8),
-        bias=np.array([n.bias for n in comp_nodes], dtype=np.float64),
-        gain=np.array([n.gain for n in comp_nodes], dtype=np.float64),
+        recurrent=network.mode == "recurrent",
+        n_inputs=len(layout.inputs),
+        n_bias=len(layout.biases),
+        n_nodes=first + len(nodes),
+        act=np.array([CODES[n.activation] for n in nodes], dtype=np.uint8),
+        bias=np.array([n.bias for n in nodes], dtype=np.float64),
+        gain=np.array([n.gain for n in nodes], dtype=np.float64),
         in_ptr=in_ptr,
         in_src=in_src,
         in_w=in_w,
-        out_idx=np.array([slot[n.id] for n in nodes if n.kind == "output"], dtype=np.uint32),
+        out_idx=np.array([slot[nid] for nid in layout.outputs], dtype=np.uint32),
     )
 
 

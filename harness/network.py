@@ -30,7 +30,7 @@ import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from importlib import resources
-from typing import Any, Literal
+from typing import Any, Literal, NoReturn
 
 from .activations import CODES
 from .errors import NetworkError
@@ -92,123 +92,196 @@ class Network:
         return sum(1 for c in self.connections if c.enabled)
 
 
-def _finite(value: Any, where: str, what: str) -> float:
+@dataclass(frozen=True, slots=True)
+class Layout:
+    """What checking a network finds, in the form compilation needs.
+
+    ``computed``: hidden and output node ids in evaluation order (topological for
+    feedforward, node-list order for recurrent). ``incoming[k]``: (source id, weight) of the
+    enabled connections into ``computed[k]``, in connection-list order.
+    """
+
+    inputs: list[int]
+    biases: list[int]
+    outputs: list[int]
+    computed: list[int]
+    incoming: list[list[tuple[int, float]]]
+
+
+_COMPUTED = ("hidden", "output")
+
+
+def _number(value: Any) -> bool:
+    """True for a finite real number (bool is not a number here)."""
+    try:
+        return math.isfinite(value) and not isinstance(value, bool)
+    except TypeError:
+        return False
+
+
+def _number_problem(value: Any, what: str) -> str:
+    """The message for a value that failed :func:`_number`."""
     if isinstance(value, bool) or not isinstance(value, int | float):
-        raise NetworkError(f"{where}: {what} must be a number, got {value!r}")
-    if not math.isfinite(value):
-        raise NetworkError(f"{where}: {what} is {value}, must be finite")
-    return float(value)
+        return f"{what} must be a number, got {value!r}"
+    return f"{what} is {value}, must be finite"
 
 
-def validate(
+def check(
     network: Network, inputs: int | None = None, outputs: int | None = None, where: str = "network"
-) -> None:
-    """Check every rule of the format; raise :class:`NetworkError` naming the offender.
+) -> Layout:
+    """Check every rule of the format in one pass and return the :class:`Layout`.
 
     ``inputs``/``outputs``, when given, are the counts the task needs. ``where`` prefixes
-    the message (for example a file name or "candidate 12 of generation 3").
+    the error message (a file name, "candidate 12 of generation 3"). Raises
+    :class:`NetworkError` naming the offending node or connection.
     """
     if not isinstance(network, Network):
         raise NetworkError(f"{where}: expected a Network, got {type(network).__name__}")
     if network.mode not in MODES:
         raise NetworkError(f"{where}: unknown mode {network.mode!r} (known: {', '.join(MODES)})")
     kinds: dict[int, str] = {}
+    ins: list[int] = []
+    biases: list[int] = []
+    outs: list[int] = []
+    computed: list[int] = []
     for node in network.nodes:
-        if not isinstance(node, Node):
+        if type(node) is not Node:
             raise NetworkError(f"{where}: node list holds {type(node).__name__}, not a Node")
-        label = f"{where}: node {node.id!r}"
-        if isinstance(node.id, bool) or not isinstance(node.id, int):
-            raise NetworkError(f"{label}: id must be an integer")
-        if node.id in kinds:
-            raise NetworkError(f"{label}: duplicate node id")
-        if node.kind not in NODE_KINDS:
+        nid, kind = node.id, node.kind
+        if isinstance(nid, bool) or not isinstance(nid, int):
+            raise NetworkError(f"{where}: node {nid!r}: id must be an integer")
+        if nid in kinds:
+            raise NetworkError(f"{where}: node {nid}: duplicate node id")
+        if kind in _COMPUTED:
+            if not isinstance(node.activation, str) or node.activation not in CODES:
+                raise NetworkError(
+                    f"{where}: node {nid}: unknown activation {node.activation!r} "
+                    f"(known: {', '.join(CODES)})"
+                )
+            for what in ("bias", "gain"):
+                if not _number(getattr(node, what)):
+                    problem = _number_problem(getattr(node, what), what)
+                    raise NetworkError(f"{where}: node {nid}: {problem}")
+            computed.append(nid)
+            if kind == "output":
+                outs.append(nid)
+        elif kind == "input" or kind == "bias":
+            if node.activation != "identity" or node.bias != 0.0 or node.gain != 1.0:
+                raise NetworkError(
+                    f"{where}: node {nid}: {kind} nodes carry no computation "
+                    "(activation must be identity, bias 0, gain 1)"
+                )
+            (ins if kind == "input" else biases).append(nid)
+        else:
             raise NetworkError(
-                f"{label}: unknown kind {node.kind!r} (known: {', '.join(NODE_KINDS)})"
+                f"{where}: node {nid}: unknown kind {kind!r} (known: {', '.join(NODE_KINDS)})"
             )
-        if not isinstance(node.activation, str) or node.activation not in CODES:
-            raise NetworkError(
-                f"{label}: unknown activation {node.activation!r} (known: {', '.join(CODES)})"
-            )
-        bias = _finite(node.bias, label, "bias")
-        gain = _finite(node.gain, label, "gain")
-        if node.kind in ("input", "bias") and (
-            node.activation != "identity" or bias != 0.0 or gain != 1.0
-        ):
-            raise NetworkError(
-                f"{label}: {node.kind} nodes carry no computation "
-                "(activation must be identity, bias 0, gain 1)"
-            )
-        kinds[node.id] = node.kind
+        kinds[nid] = kind
+    slot = {nid: k for k, nid in enumerate(computed)}
+    incoming: list[list[tuple[int, float]]] = [[] for _ in computed]
     for k, conn in enumerate(network.connections):
-        if not isinstance(conn, Connection):
+        if type(conn) is not Connection:
             raise NetworkError(f"{where}: connection list holds {type(conn).__name__}")
-        label = f"{where}: connection {k} ({conn.source} -> {conn.target})"
-        for end in ("source", "target"):
-            value = getattr(conn, end)
-            if isinstance(value, bool) or not isinstance(value, int):
-                raise NetworkError(f"{label}: {end} must be an integer node id, got {value!r}")
-            if value not in kinds:
-                raise NetworkError(f"{label}: {end} node {value!r} does not exist")
-        if kinds[conn.target] in ("input", "bias"):
-            raise NetworkError(
-                f"{label}: target is {kinds[conn.target]} node {conn.target}; "
-                "nothing may connect into input or bias nodes"
-            )
-        _finite(conn.weight, label, "weight")
-        if not isinstance(conn.enabled, bool):
-            raise NetworkError(f"{label}: enabled must be true or false")
-    n_in = sum(1 for kind in kinds.values() if kind == "input")
-    n_out = sum(1 for kind in kinds.values() if kind == "output")
-    if inputs is not None and n_in != inputs:
-        raise NetworkError(f"{where}: has {n_in} input nodes, the task needs {inputs}")
-    if outputs is not None and n_out != outputs:
-        raise NetworkError(f"{where}: has {n_out} output nodes, the task needs {outputs}")
+        src, dst, w = conn.source, conn.target, conn.weight
+        target = slot.get(dst) if type(dst) is int else None
+        if (
+            target is None
+            or type(src) is not int
+            or src not in kinds
+            or not _number(w)
+            or type(conn.enabled) is not bool
+        ):
+            _connection_error(conn, k, kinds, where)
+        if conn.enabled:
+            incoming[target].append((src, w))
+    if inputs is not None and len(ins) != inputs:
+        raise NetworkError(f"{where}: has {len(ins)} input nodes, the task needs {inputs}")
+    if outputs is not None and len(outs) != outputs:
+        raise NetworkError(f"{where}: has {len(outs)} output nodes, the task needs {outputs}")
     if network.mode == "feedforward":
-        topological_order(network, where)
+        order = _topological(computed, incoming, slot, where)
+        incoming = [incoming[slot[nid]] for nid in order]
+        computed = order
+    return Layout(ins, biases, outs, computed, incoming)
+
+
+def _connection_error(conn: Connection, k: int, kinds: dict[int, str], where: str) -> NoReturn:
+    label = f"{where}: connection {k} ({conn.source} -> {conn.target})"
+    for end in ("source", "target"):
+        value = getattr(conn, end)
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise NetworkError(f"{label}: {end} must be an integer node id, got {value!r}")
+        if value not in kinds:
+            raise NetworkError(f"{label}: {end} node {value!r} does not exist")
+    if kinds[conn.target] in ("input", "bias"):
+        raise NetworkError(
+            f"{label}: target is {kinds[conn.target]} node {conn.target}; "
+            "nothing may connect into input or bias nodes"
+        )
+    if not _number(conn.weight):
+        raise NetworkError(f"{label}: {_number_problem(conn.weight, 'weight')}")
+    raise NetworkError(f"{label}: enabled must be true or false, got {conn.enabled!r}")
+
+
+def _topological(
+    computed: list[int], incoming: list[list[tuple[int, float]]], slot: dict[int, int], where: str
+) -> list[int]:
+    """Kahn's algorithm over computed nodes (deterministic order). Names a cycle if any."""
+    n = len(computed)
+    indegree = [0] * n
+    dependants: list[list[int]] = [[] for _ in range(n)]
+    for k in range(n):
+        for src, _ in incoming[k]:
+            j = slot.get(src)
+            if j is not None:
+                indegree[k] += 1
+                dependants[j].append(k)
+    ready = [k for k in range(n) if indegree[k] == 0]
+    order: list[int] = []
+    while ready:
+        k = ready.pop()
+        order.append(k)
+        for d in dependants[k]:
+            indegree[d] -= 1
+            if indegree[d] == 0:
+                ready.append(d)
+    if len(order) < n:
+        raise NetworkError(
+            f"{where}: feedforward network has a cycle through nodes "
+            + " -> ".join(str(computed[k]) for k in _find_cycle(indegree, incoming, slot))
+        )
+    return [computed[k] for k in order]
+
+
+def _find_cycle(
+    indegree: list[int], incoming: list[list[tuple[int, float]]], slot: dict[int, int]
+) -> list[int]:
+    """A cycle among the nodes Kahn's algorithm could not order (each has an unordered source)."""
+    k = next(i for i, d in enumerate(indegree) if d > 0)
+    seen: dict[int, int] = {}
+    path: list[int] = []
+    while k not in seen:
+        seen[k] = len(path)
+        path.append(k)
+        k = next(slot[s] for s, _ in incoming[k] if s in slot and indegree[slot[s]] > 0)
+    cycle = path[seen[k] :] + [k]
+    return cycle[::-1]  # walked from targets to sources; report in signal direction
+
+
+def validate(
+    network: Network, inputs: int | None = None, outputs: int | None = None, where: str = "network"
+) -> None:
+    """Check every rule of the format; raise :class:`NetworkError` naming the offender."""
+    check(network, inputs, outputs, where)
 
 
 def topological_order(network: Network, where: str = "network") -> list[int]:
-    """Ids of hidden and output nodes in an order where every source comes first.
-
-    Only enabled connections count. Raises :class:`NetworkError` naming a cycle.
-    Ties keep the node list order, so the result is deterministic.
-    """
-    computed = [n.id for n in network.nodes if n.kind in ("hidden", "output")]
-    incoming: dict[int, list[int]] = {i: [] for i in computed}
-    for conn in network.connections:
-        if conn.enabled and conn.target in incoming:
-            incoming[conn.target].append(conn.source)
-    order: list[int] = []
-    state: dict[int, int] = {}  # 1 = on the current path, 2 = done
-    for root in computed:
-        if state.get(root):
-            continue
-        stack: list[tuple[int, int]] = [(root, 0)]
-        state[root] = 1
-        while stack:
-            node, k = stack[-1]
-            sources = incoming[node]
-            if k < len(sources):
-                stack[-1] = (node, k + 1)
-                src = sources[k]
-                if src not in incoming:
-                    continue  # input or bias node
-                mark = state.get(src)
-                if mark == 1:
-                    path = [n for n, _ in stack]
-                    cycle = path[path.index(src) :] + [src]
-                    raise NetworkError(
-                        f"{where}: feedforward network has a cycle through nodes "
-                        + " -> ".join(str(n) for n in reversed(cycle))
-                    )
-                if mark is None:
-                    state[src] = 1
-                    stack.append((src, 0))
-            else:
-                stack.pop()
-                state[node] = 2
-                order.append(node)
-    return order
+    """Ids of hidden and output nodes in an order where every source comes first."""
+    return (
+        check(network, where=where).computed
+        if network.mode == "feedforward"
+        else [n.id for n in network.nodes if n.kind in _COMPUTED]
+    )
 
 
 def to_dict(network: Network) -> dict[str, Any]:

@@ -18,10 +18,10 @@ from dataclasses import asdict, dataclass, field
 from typing import Any
 
 from . import provenance
-from .compiled import compile_network
+from .compiled import CompiledNetwork, compile_network
 from .errors import NetworkError
 from .evolver import EvolverSpec
-from .network import Network, to_dict, validate
+from .network import Network, to_dict
 
 SOLVED, UNSOLVED, FAILED = "solved", "unsolved", "failed"
 
@@ -135,7 +135,10 @@ class _Clock:
             self.seconds += time.perf_counter() - start
 
 
-def _checked_batch(batch: Any, generation: int, inputs: int, outputs: int) -> list[Network]:
+def _compiled_batch(
+    batch: Any, generation: int, inputs: int, outputs: int
+) -> tuple[list[Network], list[CompiledNetwork]]:
+    """Check the evolver's batch and compile every network; faults end the run."""
     if not isinstance(batch, Sequence) or isinstance(batch, str | bytes):
         raise _EvolverFault(
             f"ask() in generation {generation} returned {type(batch).__name__}, "
@@ -143,15 +146,19 @@ def _checked_batch(batch: Any, generation: int, inputs: int, outputs: int) -> li
         )
     if len(batch) == 0:
         raise _EvolverFault(f"ask() returned an empty batch in generation {generation}")
+    compiled = []
     for k, net in enumerate(batch):
-        where = f"candidate {k} of generation {generation}"
         if not isinstance(net, Network):
-            raise _EvolverFault(f"{where} is a {type(net).__name__}, not a Network")
+            raise _EvolverFault(
+                f"candidate {k} of generation {generation} is a {type(net).__name__}, not a Network"
+            )
         try:
-            validate(net, inputs, outputs, where=where)
+            compiled.append(
+                compile_network(net, inputs, outputs, f"candidate {k} of generation {generation}")
+            )
         except NetworkError as exc:
             raise _EvolverFault(f"invalid network: {exc}") from None
-    return list(batch)
+    return list(batch), compiled
 
 
 def run_one(spec: RunSpec) -> RunRecord:
@@ -189,11 +196,11 @@ def run_one(spec: RunSpec) -> RunRecord:
             record.evolver_settings = _settings(evolver, clock)
         while record.evaluations < budget:
             generation = record.generations
-            batch = _checked_batch(
+            batch, compiled = _compiled_batch(
                 clock.call("ask()", evolver.ask), generation, task_spec.inputs, task_spec.outputs
             )
-            batch = batch[: budget - record.evaluations]
-            compiled = [compile_network(net) for net in batch]
+            room = budget - record.evaluations  # never evaluate past the budget
+            batch, compiled = batch[:room], compiled[:room]
             results = task.evaluate_batch(compiled)
             record.evaluations += len(batch)
             record.generations += 1
