@@ -10,6 +10,7 @@ import jsonschema
 import numpy as np
 import pytest
 import scipy.special
+
 from neuroyard.harness.activations import CODES, NAMES, apply, reference
 from neuroyard.harness.errors import NetworkError
 from neuroyard.harness.network import (
