@@ -129,7 +129,7 @@ class _Clock:
         start = time.perf_counter()
         try:
             return fn(*args)
-        except Exception as exc:  # any failure of plugin code ends the run, not the campaign
+        except (Exception, SystemExit) as exc:  # a plugin fault ends the run, not the campaign
             raise _EvolverFault(f"{what} raised {type(exc).__name__}: {exc}") from exc
         finally:
             self.seconds += time.perf_counter() - start
