@@ -86,3 +86,10 @@ class Returns:
 
     def tell(self, evaluations):
         pass
+
+
+class ExitsInAsk(Returns):
+    """Calls sys.exit inside ask()."""
+
+    def ask(self):
+        raise SystemExit(3)

@@ -126,3 +126,8 @@ def test_an_evolver_that_returns_garbage_fails_its_run(what, reason):
     assert record.status == "failed"
     assert record.failure.startswith(reason)
     assert record.evaluations == 0
+
+
+def test_an_evolver_that_calls_exit_fails_its_run_only():
+    record = run_one(spec("plugins_for_tests:ExitsInAsk", budget=100))
+    assert record.status == "failed" and record.failure == "ask() raised SystemExit: 3"
