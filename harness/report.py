@@ -47,6 +47,7 @@ class ReportRow:
     config_hash: str
     task: str
     task_settings: dict[str, Any]
+    evolver_settings: dict[str, Any]
     summary: GroupSummary
     comparisons: tuple[Comparison, ...] = field(default=())
 
@@ -57,6 +58,7 @@ class ReportRow:
             "config_hash": self.config_hash,
             "task": self.task,
             "task_settings": self.task_settings,
+            "evolver_settings": self.evolver_settings,
         }
         row.update({k: v for k, v in asdict(s).items() if k != "success_ci"})
         row["success_ci_low"], row["success_ci_high"] = s.success_ci
@@ -117,6 +119,7 @@ def build(records: Iterable[RunRecord]) -> list[ReportRow]:
                 config_hash,
                 task,
                 group[0].task_settings,
+                group[0].evolver_settings or group[0].config,
                 summary,
                 _comparisons(group, summary),
             )
@@ -208,6 +211,26 @@ def _published_table(rows: Sequence[ReportRow], fmt: str) -> str:
     return tabulate(table, head, tablefmt="github" if fmt == "markdown" else "simple")
 
 
+def _settings_lines(rows: Sequence[ReportRow], fmt: str) -> list[str]:
+    """Every distinct task and evolver setting the rows were measured under."""
+    bullet = "- " if fmt == "markdown" else "  "
+    seen: dict[str, str] = {}
+    for r in rows:
+        for label, settings in (
+            (f"task {r.task}", r.task_settings),
+            (f"evolver {r.evolver} [{r.config_hash[:6]}]", r.evolver_settings),
+        ):
+            text = (
+                ", ".join(f"{k}={_setting(v)}" for k, v in sorted(settings.items())) or "defaults"
+            )
+            seen.setdefault(f"{label}: {text}", "")
+    return [bullet + line for line in seen]
+
+
+def _setting(value: Any) -> str:
+    return f"{value:.6g}" if isinstance(value, float) else str(value)
+
+
 def render(rows: Sequence[ReportRow], fmt: str = "text") -> str:
     """The report as text (aligned tables), markdown (GitHub tables) or JSON (a list of rows)."""
     if fmt == "json":
@@ -219,6 +242,8 @@ def render(rows: Sequence[ReportRow], fmt: str = "text") -> str:
     if published:
         title = "Published figures beside measured values (ratio = measured / published)"
         parts += ["", f"### {title}" if fmt == "markdown" else title, "", published]
+    title = "Settings the runs were measured under"
+    parts += ["", f"### {title}" if fmt == "markdown" else title + ":", *_settings_lines(rows, fmt)]
     notes = (
         "Evaluations, generations and sizes are over solved runs; success rate and ERT count "
         "every run (ERT = all evaluations / solved runs)."
