@@ -1,0 +1,104 @@
+"""The NEAT evolver behind neuroyard's ask/tell contract (one batch = one generation)."""
+
+from __future__ import annotations
+
+import math
+import random
+from collections.abc import Sequence
+from typing import Any
+
+from neuroyard.harness.evolver import Evaluation, Problem
+from neuroyard.harness.network import Network
+
+from .config import NeatConfig, make_config
+from .decode import Decoder
+from .genome import Genome, Layout
+from .initial import initial_population
+from .innovation import InnovationTracker
+from .reproduction import Breeder, allot_offspring, survivors
+from .species import Speciator
+
+
+class NeatEvolver:
+    """NeuroEvolution of Augmenting Topologies (Stanley & Miikkulainen 2002).
+
+    ``NeatEvolver(**settings)``: keys and defaults of ``defaults.toml`` (the paper's values;
+    see :mod:`.config`); an unknown key or a bad value raises ``ValueError`` naming it.
+    ``config`` holds the full configuration in effect. Randomness comes only from the seed
+    given to :meth:`start`, so a run is reproducible.
+    """
+
+    def __init__(self, **settings: Any) -> None:
+        self.config: NeatConfig = make_config(settings)
+        self.generation = 0
+        self.population: list[Genome] = []
+        self._batch: list[Network] | None = None
+
+    def start(self, problem: Problem, seed: int) -> None:
+        cfg = self.config
+        self.rng = random.Random(seed)
+        self.layout = Layout.for_problem(problem.inputs, problem.outputs)
+        self.tracker = InnovationTracker(next_node=self.layout.first_free_id)
+        self.decoder = Decoder(self.layout, "recurrent" if cfg.recurrent else "feedforward")
+        self.breeder = Breeder(self.layout, self.tracker, self.rng, cfg)
+        self.speciator = Speciator(cfg)
+        self.generation = 0
+        self.population = initial_population(self.layout, self.tracker, self.rng, cfg)
+        self.speciator.assign(self.population, self.generation)
+        self._batch = None
+
+    def ask(self) -> list[Network]:
+        """The current generation as networks (the same list until :meth:`tell`)."""
+        if not self.population:
+            raise RuntimeError("NeatEvolver: call start() before ask()")
+        if self._batch is None:
+            self._batch = [self.decoder.network(g) for g in self.population]
+        return self._batch
+
+    def tell(self, evaluations: Sequence[Evaluation]) -> None:
+        """Fitness of the last batch, in order; breeds and speciates the next generation."""
+        if len(evaluations) != len(self.population):
+            raise ValueError(
+                f"NeatEvolver: tell() got {len(evaluations)} evaluations "
+                f"for a generation of {len(self.population)}"
+            )
+        for genome, result in zip(self.population, evaluations, strict=True):
+            if not math.isfinite(result.fitness):
+                raise ValueError(f"NeatEvolver: fitness {result.fitness!r} is not finite")
+            genome.fitness = float(result.fitness)
+        self._next_generation()
+
+    def stats(self) -> dict[str, float]:
+        """Figures of the current generation: species, genome sizes, threshold, innovations."""
+        pop = self.population
+        n = len(pop)
+        return {
+            "generation": float(self.generation),
+            "species": float(len(self.speciator.species)),
+            "compat_threshold": self.config.compat_threshold,
+            "mean_genes": sum(len(g.genes) for g in pop) / n,
+            "mean_enabled_connections": sum(g.enabled_connections for g in pop) / n,
+            "mean_hidden_nodes": sum(len(g.hidden) for g in pop) / n,
+            "innovations": float(self.tracker.next_innovation),
+        }
+
+    def _next_generation(self) -> None:
+        cfg = self.config
+        species = self.speciator.species
+        for s in species:
+            s.record_fitness(self.generation)
+        counts = allot_offspring(species, cfg.population_size, self.generation, cfg)
+        self.speciator.pick_representatives(self.rng)
+        parents = {s.id: survivors(s.members, cfg.survival_fraction) for s in species}
+        self.tracker.new_generation()
+        children: list[Genome] = []
+        for s in species:
+            count = counts.get(s.id, 0)
+            if count:
+                others = [p for sid, p in parents.items() if sid != s.id and sid in counts]
+                children += self.breeder.offspring(s, parents[s.id], count, others)
+        self.speciator.drop(counts)
+        self.generation += 1
+        self.population = children
+        self.speciator.assign(children, self.generation)
+        self._batch = None

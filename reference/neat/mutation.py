@@ -1,0 +1,116 @@
+"""NEAT mutations: weight change, add-node, add-link (paper sec. 4.1 rates; LITERATURE.md 1.1).
+
+All operate in place on a :class:`~.genome.Genome` and draw from the run's ``random.Random``.
+"""
+
+from __future__ import annotations
+
+import random
+
+from .config import NeatConfig
+from .genome import ConnectionGene, Genome, Layout
+from .innovation import InnovationTracker
+
+
+def mutate(
+    genome: Genome,
+    layout: Layout,
+    tracker: InnovationTracker,
+    rng: random.Random,
+    config: NeatConfig,
+) -> None:
+    """Apply each mutation with its own probability: weights, then add-node, then add-link."""
+    if rng.random() < config.weight_mutation_prob:
+        mutate_weights(genome, rng, config)
+    if config.growth:
+        if rng.random() < config.add_node_prob:
+            add_node(genome, tracker, rng)
+        if rng.random() < config.add_link_prob:
+            add_link(genome, layout, tracker, rng, config)
+
+
+def mutate_weights(genome: Genome, rng: random.Random, config: NeatConfig) -> None:
+    """Each weight: uniform perturbation in [-power, +power] with ``weight_perturb_prob``,
+    otherwise a new value uniform in [-weight_init_range, +weight_init_range]; then clipped
+    to [-weight_limit, +weight_limit]."""
+    power = config.weight_perturb_power
+    spread = config.weight_init_range
+    limit = config.weight_limit
+    perturb = config.weight_perturb_prob
+    uniform = rng.uniform
+    for gene in genome.genes.values():
+        if rng.random() < perturb:
+            weight = gene.weight + uniform(-power, power)
+        else:
+            weight = uniform(-spread, spread)
+        gene.weight = -limit if weight < -limit else limit if weight > limit else weight
+
+
+def add_node(genome: Genome, tracker: InnovationTracker, rng: random.Random) -> bool:
+    """Split a random enabled gene a->b into a->new (weight 1) and new->b (the old weight).
+
+    The split gene is disabled (paper; LITERATURE.md 1.1 'Add-node mechanics').
+    Returns False when the genome has no enabled gene to split.
+    """
+    enabled = [g for g in genome.genes.values() if g.enabled]
+    if not enabled:
+        return False
+    old = rng.choice(enabled)
+    old.enabled = False
+    split = tracker.split(old.innovation, set(genome.hidden))
+    genome.hidden.append(split.node)
+    genome.add(ConnectionGene(split.in_innovation, old.source, split.node, 1.0))
+    genome.add(ConnectionGene(split.out_innovation, split.node, old.target, old.weight))
+    return True
+
+
+def add_link(
+    genome: Genome,
+    layout: Layout,
+    tracker: InnovationTracker,
+    rng: random.Random,
+    config: NeatConfig,
+) -> bool:
+    """Connect a random pair of unconnected nodes, new weight uniform in +-weight_init_range.
+
+    Targets are hidden and output nodes. Without ``config.recurrent`` a link that would
+    close a cycle (through any gene, enabled or not) is never chosen; with it, any pair
+    is allowed, self-loops included. The pair is drawn uniformly among the allowed ones.
+    Returns False when no pair is left.
+    """
+    targets = genome.hidden + list(layout.outputs)
+    sources = list(layout.sources) + targets
+    existing = {(g.source, g.target) for g in genome.genes.values()}
+    candidates = [(s, t) for s in sources for t in targets if (s, t) not in existing]
+    successors: dict[int, list[int]] | None = None
+    if not config.recurrent:
+        successors = {}
+        for g in genome.genes.values():
+            successors.setdefault(g.source, []).append(g.target)
+    while candidates:
+        k = rng.randrange(len(candidates))
+        source, target = candidates[k]
+        candidates[k] = candidates[-1]
+        candidates.pop()
+        if successors is not None and _reaches(target, source, successors):
+            continue
+        spread = config.weight_init_range
+        innovation = tracker.link(source, target)
+        genome.add(ConnectionGene(innovation, source, target, rng.uniform(-spread, spread)))
+        return True
+    return False
+
+
+def _reaches(start: int, goal: int, successors: dict[int, list[int]]) -> bool:
+    """True when ``goal`` is ``start`` or can be reached from it along the genes."""
+    stack = [start]
+    seen = {start}
+    while stack:
+        node = stack.pop()
+        if node == goal:
+            return True
+        for nxt in successors.get(node, ()):
+            if nxt not in seen:
+                seen.add(nxt)
+                stack.append(nxt)
+    return False
