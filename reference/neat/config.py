@@ -41,6 +41,7 @@ class NeatConfig:
     weight_limit: float
     add_node_prob: float
     add_link_prob: float
+    structural_excludes_weights: bool
     recurrent: bool
     growth: bool
     speciation: bool

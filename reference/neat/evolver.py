@@ -68,6 +68,10 @@ class NeatEvolver:
             genome.fitness = float(result.fitness)
         self._next_generation()
 
+    def settings(self) -> dict[str, Any]:
+        """The effective configuration, defaults included (recorded with every run)."""
+        return self.config.as_dict()
+
     def stats(self) -> dict[str, float]:
         """Figures of the current generation: species, genome sizes, threshold, innovations."""
         pop = self.population

@@ -19,14 +19,28 @@ def mutate(
     rng: random.Random,
     config: NeatConfig,
 ) -> None:
-    """Apply each mutation with its own probability: weights, then add-node, then add-link."""
+    """Apply the mutations, each with its own probability.
+
+    With ``config.structural_excludes_weights`` an offspring gets at most one kind of
+    mutation: add-node, else add-link, else (maybe) weights; otherwise each of the three
+    is drawn independently.
+    """
+    grow = config.growth
+    if config.structural_excludes_weights:
+        if grow and rng.random() < config.add_node_prob and add_node(genome, tracker, rng):
+            return
+        linked = grow and rng.random() < config.add_link_prob
+        if linked and add_link(genome, layout, tracker, rng, config):
+            return
+        if rng.random() < config.weight_mutation_prob:
+            mutate_weights(genome, rng, config)
+        return
     if rng.random() < config.weight_mutation_prob:
         mutate_weights(genome, rng, config)
-    if config.growth:
-        if rng.random() < config.add_node_prob:
-            add_node(genome, tracker, rng)
-        if rng.random() < config.add_link_prob:
-            add_link(genome, layout, tracker, rng, config)
+    if grow and rng.random() < config.add_node_prob:
+        add_node(genome, tracker, rng)
+    if grow and rng.random() < config.add_link_prob:
+        add_link(genome, layout, tracker, rng, config)
 
 
 def mutate_weights(genome: Genome, rng: random.Random, config: NeatConfig) -> None:
