@@ -1,0 +1,87 @@
+"""Measure the kernel speed workloads and write ``kernel_speed.json`` beside this file.
+
+    python results/benchmarks/kernel_speed.py
+
+For each workload of :mod:`kernel_workloads` (the same ones the pytest benchmark runs):
+median wall time and median CPU time of this process, for the numba kernels and for the
+plain-Python reference, and their ratios. Then the time a second process with a warm numba
+cache takes from start to its first evaluation. Prints a table; the JSON file keeps the
+medians, the raw warm-start samples, the targets and the machine they were measured on.
+"""
+
+from __future__ import annotations
+
+import json
+import statistics
+import time
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Any
+
+import kernel_workloads as workloads
+from tabulate import tabulate
+
+WARM_START_REPEATS = 5
+OUTPUT = Path(__file__).with_name("kernel_speed.json")
+
+
+def measure(work: workloads.Workload) -> dict[str, Any]:
+    """Medians of both forms of one workload, in seconds, and the speed ratios."""
+    work.check()
+    row: dict[str, Any] = {"description": work.description}
+    for form, fn, repeats in (
+        ("kernel", work.kernel, work.kernel_repeats),
+        ("reference", work.reference, work.reference_repeats),
+    ):
+        row[f"{form}_repeats"] = repeats
+        row[f"{form}_wall_median_s"] = workloads.median_seconds(fn, repeats)
+        row[f"{form}_cpu_median_s"] = workloads.median_seconds(fn, repeats, time.process_time)
+    for clock in ("wall", "cpu"):
+        row[f"ratio_{clock}"] = row[f"reference_{clock}_median_s"] / row[f"kernel_{clock}_median_s"]
+    row["ratio_target"] = work.ratio_target
+    if work.ratio_target is not None:
+        row["target_met"] = row["ratio_wall"] >= work.ratio_target
+    return row
+
+
+def main() -> None:
+    results: dict[str, Any] = {
+        "measured_at": datetime.now(UTC).isoformat(timespec="seconds"),
+        "machine": workloads.machine_info(),
+        "workloads": {name: measure(build()) for name, build in workloads.WORKLOADS.items()},
+    }
+    samples = workloads.warm_start_seconds(WARM_START_REPEATS)
+    median = statistics.median(samples)
+    results["warm_start"] = {
+        "description": "wall seconds from spawning a second python process to its first "
+        "XOR evaluation done, numba cache warmed by an earlier process",
+        "samples_s": samples,
+        "median_s": median,
+        "target_s": workloads.WARM_START_TARGET_S,
+        "target_met": median < workloads.WARM_START_TARGET_S,
+    }
+    results["machine"]["load_average_1min_after"] = workloads.machine_info()["load_average_1min"]
+    OUTPUT.write_text(json.dumps(results, indent=2) + "\n")
+
+    table = [
+        [
+            name,
+            f"{row['kernel_wall_median_s'] * 1e3:.2f}",
+            f"{row['reference_wall_median_s'] * 1e3:.1f}",
+            f"{row['ratio_wall']:.1f}x",
+            f"{row['ratio_cpu']:.1f}x",
+            "" if row["ratio_target"] is None else f">= {row['ratio_target']:g}x",
+        ]
+        for name, row in results["workloads"].items()
+    ]
+    headers = ["workload", "kernel ms", "plain Python ms", "ratio", "ratio (CPU time)", "target"]
+    print(tabulate(table, headers=headers))
+    print(
+        f"\nsecond process, start to first evaluation (warm cache): median {median:.3f} s "
+        f"(target < {workloads.WARM_START_TARGET_S:g} s)"
+    )
+    print(f"written to {OUTPUT}")
+
+
+if __name__ == "__main__":
+    main()
