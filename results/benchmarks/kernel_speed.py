@@ -50,13 +50,16 @@ def main() -> None:
         "machine": workloads.machine_info(),
         "workloads": {name: measure(build()) for name, build in workloads.WORKLOADS.items()},
     }
-    samples = workloads.warm_start_seconds(WARM_START_REPEATS)
-    median = statistics.median(samples)
+    samples = workloads.warm_start(WARM_START_REPEATS)
+    median = statistics.median(x.wall_s for x in samples)
     results["warm_start"] = {
         "description": "wall seconds from spawning a second python process to its first "
-        "XOR evaluation done, numba cache warmed by an earlier process",
-        "samples_s": samples,
+        "XOR evaluation done, numba cache warmed by an earlier process; cpu: CPU seconds "
+        "that process used until then",
+        "wall_samples_s": [x.wall_s for x in samples],
+        "cpu_samples_s": [x.cpu_s for x in samples],
         "median_s": median,
+        "cpu_median_s": statistics.median(x.cpu_s for x in samples),
         "target_s": workloads.WARM_START_TARGET_S,
         "target_met": median < workloads.WARM_START_TARGET_S,
     }
@@ -78,7 +81,8 @@ def main() -> None:
     print(tabulate(table, headers=headers))
     print(
         f"\nsecond process, start to first evaluation (warm cache): median {median:.3f} s "
-        f"(target < {workloads.WARM_START_TARGET_S:g} s)"
+        f"(target < {workloads.WARM_START_TARGET_S:g} s), "
+        f"CPU time {results['warm_start']['cpu_median_s']:.3f} s"
     )
     print(f"written to {OUTPUT}")
 

@@ -216,12 +216,21 @@ from neuroyard.harness.compiled import compile_network
 from neuroyard.harness.network import fully_connected
 task = tasks.make("xor-v1")
 task.evaluate(compile_network(fully_connected(2, 1, [1.0, -1.0, 0.5]), 2, 1))
-print(time.time())
+print(time.time(), time.process_time())
 """
 
 
-def first_evaluation_seconds() -> float:
-    """Seconds from spawning ``python -c`` to its first XOR evaluation being done.
+@dataclass(frozen=True)
+class FirstEvaluation:
+    """A new process's way to its first evaluation: wall seconds from spawning it, and the
+    CPU seconds it used (the part that does not grow when other work shares the machine)."""
+
+    wall_s: float
+    cpu_s: float
+
+
+def first_evaluation() -> FirstEvaluation:
+    """Spawn ``python -c`` and time it until its first XOR evaluation is done.
 
     Covers interpreter start, imports, numba cache loading (or compiling, on a cold
     cache), checking, compiling and evaluating one network; not the process exit.
@@ -230,13 +239,14 @@ def first_evaluation_seconds() -> float:
     done = subprocess.run(
         [sys.executable, "-c", FIRST_EVALUATION], capture_output=True, text=True, check=True
     )
-    return float(done.stdout.strip().splitlines()[-1]) - start
+    finished, cpu = (float(x) for x in done.stdout.split()[-2:])
+    return FirstEvaluation(wall_s=finished - start, cpu_s=cpu)
 
 
-def warm_start_seconds(repeats: int) -> list[float]:
+def warm_start(repeats: int) -> list[FirstEvaluation]:
     """Warm the numba cache with one process, then time ``repeats`` further processes."""
-    first_evaluation_seconds()
-    return [first_evaluation_seconds() for _ in range(repeats)]
+    first_evaluation()
+    return [first_evaluation() for _ in range(repeats)]
 
 
 # --- machine ---------------------------------------------------------------------------
