@@ -155,7 +155,7 @@ def test_parity_3_truth_table() -> None:
     rows = {
         tuple(int(v) for v in p): int(t) for p, t in zip(task.patterns, task.targets, strict=True)
     }
-    expected = {
+    expected = {  # N-bit parity: the XOR of all N bits, by definition
         bits: functools.reduce(operator.xor, bits) for bits in itertools.product((0, 1), repeat=3)
     }
     assert rows == expected
