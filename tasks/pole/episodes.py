@@ -21,7 +21,7 @@ import numpy as np
 
 from neuroyard.harness.compiled import CompiledNetwork, new_state, step
 
-from .physics import Physics, advance, new_workspace
+from .physics import KERNEL, Physics, integration_step, new_workspace, pack_constants
 
 # Gruau, Whitley & Pyeatt 1996: the damped fitness looks at the last 100 steps
 # (LITERATURE.md sec. 2.7, from memory, MEMORY-high).
@@ -48,7 +48,7 @@ class EpisodeRules(NamedTuple):
     failure_angle: float
 
 
-@numba.njit(cache=True)
+@numba.njit(**KERNEL)
 def failed(rules: EpisodeRules, state: np.ndarray) -> bool:
     """True when the cart is off the track or a pole is past the failure angle (or NaN)."""
     if not abs(state[0]) <= rules.track_limit:
@@ -59,7 +59,7 @@ def failed(rules: EpisodeRules, state: np.ndarray) -> bool:
     return False
 
 
-@numba.njit(cache=True)
+@numba.njit(**KERNEL)
 def balance(
     net: CompiledNetwork,
     phys: Physics,
@@ -75,7 +75,6 @@ def balance(
     past the end of the episode are left untouched); pass a (0, n) array to skip.
     """
     values, scratch = new_state(net)
-    ws = new_workspace(phys)
     state = start.copy()
     n_obs = rules.obs_index.shape[0]
     inputs = np.empty(n_obs, dtype=np.float64)
@@ -84,6 +83,9 @@ def balance(
     keep = record.shape[0]
     if keep > 0:
         record[0] = state
+    c = pack_constants(phys)
+    ws = new_workspace(phys.masses.shape[0])
+    tau, euler = phys.tau, phys.integrator == 1
     steps = 0
     while steps < max_steps:
         for j in range(n_obs):
@@ -94,7 +96,7 @@ def balance(
         else:
             force = rules.max_force * min(1.0, max(-1.0, 2.0 * outputs[0] - 1.0))
         for _ in range(rules.substeps):
-            advance(phys, state, force, ws)
+            integration_step(c, tau, euler, state, force, ws)
         if failed(rules, state):
             break
         window[steps % JIGGLE_WINDOW] = (
@@ -107,7 +109,7 @@ def balance(
     return steps, jiggle
 
 
-@numba.njit(cache=True)
+@numba.njit(**KERNEL)
 def count_balanced(
     net: CompiledNetwork,
     phys: Physics,

@@ -22,6 +22,7 @@ Euler (the update rule of the classic single-pole simulator; used to check again
 
 from __future__ import annotations
 
+import math
 from typing import NamedTuple
 
 import numba
@@ -98,79 +99,104 @@ def make_physics(
     )
 
 
-@numba.njit(cache=True)
-def new_workspace(phys: Physics) -> np.ndarray:
-    """Scratch for :func:`advance`: rows k1..k4, trial state, per-pole terms (3 per pole)."""
-    return np.zeros((6, 2 + 3 * phys.masses.shape[0]), dtype=np.float64)
+KERNEL = {"cache": True}
+
+# Layout of the packed constants used inside the kernels (see pack_constants).
+_CART_MASS, _G, _CART_FRICTION, _POLE_FRICTION, _PER_POLE = 0, 1, 2, 3, 4
 
 
-@numba.njit(cache=True)
-def derivatives(
-    phys: Physics, state: np.ndarray, force: float, out: np.ndarray, pole_tmp: np.ndarray
-) -> None:
-    """Write d(state)/dt into ``out``; ``pole_tmp`` is scratch of length >= 3N."""
-    g = -phys.gravity  # sign convention of Wieland's equations (LITERATURE.md sec. 2.1)
-    n_poles = phys.masses.shape[0]
+@numba.njit(**KERNEL)
+def pack_constants(phys: Physics) -> np.ndarray:
+    """Physics constants in one flat array, per-pole terms precomputed.
+
+    ``[M, g, mu_c, mu_p, m_1..m_N, m_i l_i.., 1/(m_i l_i).., 3/(4 l_i)..]`` with
+    g = -gravity (the sign convention of Wieland's equations, LITERATURE.md sec. 2.1).
+    One array instead of several: every array handed through the inner loop costs
+    numba reference-count updates, which measured slower than the physics itself.
+    """
+    n = phys.masses.shape[0]
+    c = np.empty(_PER_POLE + 4 * n, dtype=np.float64)
+    c[_CART_MASS] = phys.cart_mass
+    c[_G] = -phys.gravity
+    c[_CART_FRICTION] = phys.cart_friction
+    c[_POLE_FRICTION] = phys.pole_friction
+    for i in range(n):
+        ml = phys.masses[i] * phys.half_lengths[i]
+        c[_PER_POLE + i] = phys.masses[i]
+        c[_PER_POLE + n + i] = ml
+        c[_PER_POLE + 2 * n + i] = 1.0 / ml
+        c[_PER_POLE + 3 * n + i] = 0.75 / phys.half_lengths[i]
+    return c
+
+
+@numba.njit(**KERNEL)
+def new_workspace(n_poles: int) -> np.ndarray:
+    """Scratch for :func:`integration_step`: rows k1..k4, trial state, per-pole terms."""
+    return np.zeros((6, 2 + 3 * n_poles), dtype=np.float64)
+
+
+@numba.njit(inline="always", **KERNEL)
+def derivatives(c: np.ndarray, state: np.ndarray, force: float, ws: np.ndarray, row: int) -> None:
+    """Write d(state)/dt into ``ws[row]``; ``c`` from :func:`pack_constants`."""
+    n = (c.shape[0] - _PER_POLE) // 4
+    g = c[_G]
+    mu_p = c[_POLE_FRICTION]
     x_dot = state[1]
     num = force
     if x_dot > 0.0:
-        num -= phys.cart_friction
+        num -= c[_CART_FRICTION]
     elif x_dot < 0.0:
-        num += phys.cart_friction
-    den = phys.cart_mass
-    for i in range(n_poles):
-        m = phys.masses[i]
-        ml = m * phys.half_lengths[i]
-        th = state[2 + 2 * i]
+        num += c[_CART_FRICTION]
+    den = c[_CART_MASS]
+    for i in range(n):
+        m = c[_PER_POLE + i]
         th_dot = state[3 + 2 * i]
-        s = np.sin(th)
-        c = np.cos(th)
-        hinge = phys.pole_friction * th_dot / ml
-        num += ml * th_dot * th_dot * s + 0.75 * m * c * (hinge + g * s)
-        den += m * (1.0 - 0.75 * c * c)
-        pole_tmp[3 * i] = s
-        pole_tmp[3 * i + 1] = c
-        pole_tmp[3 * i + 2] = hinge
+        s = math.sin(state[2 + 2 * i])
+        co = math.cos(state[2 + 2 * i])
+        hinge = mu_p * th_dot * c[_PER_POLE + 2 * n + i]  # mu_p th_dot / (m l)
+        num += c[_PER_POLE + n + i] * th_dot * th_dot * s + 0.75 * m * co * (hinge + g * s)
+        den += m * (1.0 - 0.75 * co * co)
+        ws[5, 3 * i] = s
+        ws[5, 3 * i + 1] = co
+        ws[5, 3 * i + 2] = hinge
     x_acc = num / den
-    out[0] = x_dot
-    out[1] = x_acc
-    for i in range(n_poles):
-        s = pole_tmp[3 * i]
-        c = pole_tmp[3 * i + 1]
-        out[2 + 2 * i] = state[3 + 2 * i]
-        out[3 + 2 * i] = -0.75 / phys.half_lengths[i] * (x_acc * c + g * s + pole_tmp[3 * i + 2])
+    ws[row, 0] = x_dot
+    ws[row, 1] = x_acc
+    for i in range(n):
+        ws[row, 2 + 2 * i] = state[3 + 2 * i]
+        ws[row, 3 + 2 * i] = -c[_PER_POLE + 3 * n + i] * (
+            x_acc * ws[5, 3 * i + 1] + g * ws[5, 3 * i] + ws[5, 3 * i + 2]
+        )
 
 
-@numba.njit(cache=True)
-def advance(phys: Physics, state: np.ndarray, force: float, ws: np.ndarray) -> None:
-    """Advance ``state`` in place by one step of ``phys.tau`` seconds under constant ``force``."""
-    n = 2 + 2 * phys.masses.shape[0]
-    tau = phys.tau
-    k1 = ws[0]
-    pole_tmp = ws[5]
-    derivatives(phys, state, force, k1, pole_tmp)
-    if phys.integrator == 1:
+@numba.njit(inline="always", **KERNEL)
+def integration_step(
+    c: np.ndarray, tau: float, euler: bool, state: np.ndarray, force: float, ws: np.ndarray
+) -> None:
+    """Advance ``state`` in place by ``tau`` seconds under constant ``force`` (RK4, or
+    explicit Euler when ``euler``); ``c`` from :func:`pack_constants`, ``ws`` from
+    :func:`new_workspace`."""
+    n = state.shape[0]
+    derivatives(c, state, force, ws, 0)
+    if euler:
         for j in range(n):
-            state[j] += tau * k1[j]
+            state[j] += tau * ws[0, j]
         return
-    k2 = ws[1]
-    k3 = ws[2]
-    k4 = ws[3]
     trial = ws[4]
     for j in range(n):
-        trial[j] = state[j] + 0.5 * tau * k1[j]
-    derivatives(phys, trial, force, k2, pole_tmp)
+        trial[j] = state[j] + 0.5 * tau * ws[0, j]
+    derivatives(c, trial, force, ws, 1)
     for j in range(n):
-        trial[j] = state[j] + 0.5 * tau * k2[j]
-    derivatives(phys, trial, force, k3, pole_tmp)
+        trial[j] = state[j] + 0.5 * tau * ws[1, j]
+    derivatives(c, trial, force, ws, 2)
     for j in range(n):
-        trial[j] = state[j] + tau * k3[j]
-    derivatives(phys, trial, force, k4, pole_tmp)
+        trial[j] = state[j] + tau * ws[2, j]
+    derivatives(c, trial, force, ws, 3)
     for j in range(n):
-        state[j] += tau / 6.0 * (k1[j] + 2.0 * k2[j] + 2.0 * k3[j] + k4[j])
+        state[j] += tau / 6.0 * (ws[0, j] + 2.0 * ws[1, j] + 2.0 * ws[2, j] + ws[3, j])
 
 
-@numba.njit(cache=True)
+@numba.njit(**KERNEL)
 def simulate(phys: Physics, start: np.ndarray, forces: np.ndarray, substeps: int) -> np.ndarray:
     """Integrate from ``start`` under a sequence of forces; return the state trajectory.
 
@@ -184,9 +210,11 @@ def simulate(phys: Physics, start: np.ndarray, forces: np.ndarray, substeps: int
     out = np.empty((forces.shape[0] + 1, n), dtype=np.float64)
     state = start.copy()
     out[0] = state
-    ws = new_workspace(phys)
+    c = pack_constants(phys)
+    ws = new_workspace(phys.masses.shape[0])
+    euler = phys.integrator == 1
     for k in range(forces.shape[0]):
         for _ in range(substeps):
-            advance(phys, state, forces[k], ws)
+            integration_step(c, phys.tau, euler, state, forces[k], ws)
         out[k + 1] = state
     return out
