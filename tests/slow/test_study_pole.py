@@ -56,27 +56,54 @@ def evolver_settings(figure: ReferenceFigure) -> dict[str, Any]:
 def run_study(
     name: str, task: str, runs: int, budget: int, settings: dict[str, Any]
 ) -> tuple[list[RunRecord], GroupSummary]:
-    """Run (or resume) the study's campaign; write ``results/pole/<name>.json``."""
+    """Run (or resume) the study's campaign into ``results/pole/<name>.sqlite``.
+
+    ``results/pole/<name>.json`` is rewritten after every finished run, so a study stopped
+    part-way leaves a summary of the runs it finished.
+    """
     RESULTS.mkdir(parents=True, exist_ok=True)
     evolver = EvolverSpec("neat", settings)
     plan = CampaignPlan([evolver], [TaskChoice(task)], runs=runs, seed=SEED, budget=budget)
     with ResultStore(RESULTS / f"{name}.sqlite") as store:
-        execute(plan, store, workers=WORKERS, progress=False)
-        records = [
-            r
-            for r in store.records(with_log=False)
-            if r.task == task and r.config_hash == evolver.config_hash and r.budget == budget
-        ]
-    records.sort(key=lambda r: r.run_index)
+
+        def study_records() -> list[RunRecord]:
+            found = [
+                r
+                for r in store.records(with_log=False)
+                if r.task == task and r.config_hash == evolver.config_hash and r.budget == budget
+            ]
+            return sorted(found, key=lambda r: r.run_index)
+
+        def write_summary(_: RunRecord | None = None) -> None:
+            done = study_records()
+            (RESULTS / f"{name}.json").write_text(
+                json.dumps(summary_document(name, task, runs, budget, settings, done), indent=1)
+                + "\n"
+            )
+
+        execute(plan, store, workers=WORKERS, progress=False, on_record=write_summary)
+        write_summary()
+        records = study_records()
     summary = summarize(records)
-    doc = {
+    print(
+        f"\n{name}: {summary.solved}/{summary.runs} solved, mean evals {summary.mean_evaluations}"
+    )
+    return records, summary
+
+
+def summary_document(
+    name: str, task: str, runs: int, budget: int, settings: dict[str, Any], done: list[RunRecord]
+) -> dict[str, Any]:
+    return {
         "study": name,
         "task": task,
         "evolver": "neat",
         "evolver_config": settings,
         "budget": budget,
         "campaign_seed": SEED,
-        "summary": asdict(summary),
+        "runs_planned": runs,
+        "runs_finished": len(done),
+        "summary": asdict(summarize(done)) if done else None,
         "runs": [
             {
                 "run": r.run_index,
@@ -89,16 +116,11 @@ def run_study(
                 "connections": r.connections,
                 "wall_seconds": round(r.timing.get("wall", 0.0), 2),
             }
-            for r in records
+            for r in done
         ],
-        "task_settings": records[0].task_settings if records else {},
-        "evolver_settings": records[0].evolver_settings if records else {},
+        "task_settings": done[0].task_settings if done else {},
+        "evolver_settings": done[0].evolver_settings if done else {},
     }
-    (RESULTS / f"{name}.json").write_text(json.dumps(doc, indent=1) + "\n")
-    print(
-        f"\n{name}: {summary.solved}/{summary.runs} solved, mean evals {summary.mean_evaluations}"
-    )
-    return records, summary
 
 
 def assert_comparable(figure: ReferenceFigure, records: list[RunRecord]) -> None:

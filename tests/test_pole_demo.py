@@ -1,0 +1,35 @@
+"""The replay demo: trace of a known controller, PNG written, command line."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+
+from neuroyard.harness.network import dumps
+from neuroyard.tasks.pole.controllers import lqr_gains, state_feedback_network
+from neuroyard.tasks.pole.demo import main, trace
+from neuroyard.tasks.registry import make
+
+
+def test_trace_and_plot_of_a_balancing_controller(tmp_path) -> None:
+    task = make("pole2-markov-v1")
+    network = state_feedback_network(task, lqr_gains(task, [1, 1, 100, 1, 100, 1]))
+    states = trace(task, network, 500)
+    assert states.shape == (501, 6)
+    assert states[0, 2] == task.settings["start_angle"]
+    assert np.abs(states[-1, 2]) < np.abs(states[0, 2])  # the controller rights the pole
+    path = tmp_path / "net.json"
+    path.write_text(dumps(network))
+    out = tmp_path / "replay.png"
+    assert main(["--network", str(path), "--steps", "500", "--out", str(out)]) == 0
+    assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_command_line_reports_a_missing_file(tmp_path, capsys) -> None:
+    missing = tmp_path / "none.json"
+    assert main(["--network", str(missing), "--out", str(tmp_path / "x.png")]) == 2
+    assert "none.json" in capsys.readouterr().out
+    bad = tmp_path / "bad.json"
+    bad.write_text(json.dumps({"nodes": "x"}))
+    assert main(["--network", str(bad), "--out", str(tmp_path / "x.png")]) == 2
