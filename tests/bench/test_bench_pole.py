@@ -83,15 +83,19 @@ def kernel_episode(task, net) -> int:
     return steps
 
 
-def test_bench_dpv_episode_kernel(benchmark, dpv) -> None:
-    task, _, net = dpv
+@pytest.mark.parametrize("substeps", [2, 1], ids=["default-2-substeps", "1-substep"])
+def test_bench_dpv_episode_kernel(benchmark, dpv, substeps: int) -> None:
+    """Control steps per second; the default protocol integrates two RK4 steps per action,
+    the 1-substep case shows the rate per integration step."""
+    _, _, net = dpv
+    task = make("pole2-markov-v1", substeps=substeps)
     assert kernel_episode(task, net) == KERNEL_STEPS  # a full-length episode is measured
     record = np.zeros((KERNEL_STEPS + 1, 6))
     balance(net, task.physics, task.rules, task.start, KERNEL_STEPS, record)
     assert np.abs(record[-1]).max() > 1e-100  # no slide into subnormal floats
     rate = KERNEL_STEPS / seconds(benchmark, lambda: kernel_episode(task, net), rounds=10)
     benchmark.extra_info["control_steps_per_second"] = rate
-    print(f"\nDPV kernel: {rate / 1e6:.2f} M control steps/s")
+    print(f"\nDPV kernel, {substeps} substeps: {rate / 1e6:.2f} M control steps/s")
     assert rate >= 1.5e6
 
 
