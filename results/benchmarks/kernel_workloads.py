@@ -55,17 +55,51 @@ class Workload:
         np.testing.assert_allclose(kernel, reference, rtol=1e-12, atol=1e-12)
 
 
+def timed(fn: Callable[[], Any], timer: Callable[[], float]) -> float:
+    start = timer()
+    fn()
+    return timer() - start
+
+
 def median_seconds(
     fn: Callable[[], Any], repeats: int, timer: Callable[[], float] = time.perf_counter
 ) -> float:
     """Median time of ``repeats`` calls of ``fn`` in seconds: wall time by default, or the
     process's CPU time with ``timer=time.process_time`` (less disturbed by other work)."""
-    times = []
-    for _ in range(repeats):
-        start = timer()
-        fn()
-        times.append(timer() - start)
-    return statistics.median(times)
+    return statistics.median(timed(fn, timer) for _ in range(repeats))
+
+
+@dataclass(frozen=True)
+class Comparison:
+    """Medians of both forms of a workload (seconds) and the speed ratio."""
+
+    kernel_s: float
+    reference_s: float
+    ratio: float
+
+
+def compare(work: Workload, timer: Callable[[], float] = time.perf_counter) -> Comparison:
+    """Time both forms in interleaved rounds, so a change in the machine's load hits both.
+
+    Each round times the reference once and the kernel ``kernel_repeats //
+    reference_repeats`` times; the ratio is the median over rounds of (reference time /
+    median kernel time of the round).
+    """
+    per_round = max(1, work.kernel_repeats // work.reference_repeats)
+    kernel_all: list[float] = []
+    reference_all: list[float] = []
+    ratios: list[float] = []
+    for _ in range(work.reference_repeats):
+        reference = timed(work.reference, timer)
+        kernel = [timed(work.kernel, timer) for _ in range(per_round)]
+        reference_all.append(reference)
+        kernel_all += kernel
+        ratios.append(reference / statistics.median(kernel))
+    return Comparison(
+        kernel_s=statistics.median(kernel_all),
+        reference_s=statistics.median(reference_all),
+        ratio=statistics.median(ratios),
+    )
 
 
 # --- XOR batch -------------------------------------------------------------------------
@@ -193,8 +227,8 @@ def recurrent_episode(steps: int = RECURRENT_STEPS) -> Workload:
         ),
         kernel=kernel,
         reference=reference,
-        kernel_repeats=30,
-        reference_repeats=5,
+        kernel_repeats=28,
+        reference_repeats=7,
         ratio_target=RATIO_TARGET,
     )
 
@@ -267,5 +301,6 @@ def machine_info() -> dict[str, Any]:
         "cpu": cpu,
         "cpu_count": os.cpu_count(),
         "load_average_1min": os.getloadavg()[0] if hasattr(os, "getloadavg") else None,
+        "niceness": os.nice(0) if hasattr(os, "nice") else None,
         "versions": versions(),
     }
