@@ -13,14 +13,13 @@ all inside one ``@njit`` function, so an episode is one call from Python.
 
 from __future__ import annotations
 
-from itertools import accumulate
 from typing import NamedTuple
 
 import numba
 import numpy as np
 
-from .activations import CODES, apply
-from .network import Network, check
+from .activations import apply
+from .network import Network
 
 
 class CompiledNetwork(NamedTuple):
@@ -42,30 +41,11 @@ class CompiledNetwork(NamedTuple):
 def compile_network(
     network: Network, inputs: int | None = None, outputs: int | None = None, where: str = "network"
 ) -> CompiledNetwork:
-    """Check ``network`` (all rules of :func:`~neuroyard.harness.network.check`, raising
-    :class:`NetworkError` naming the offender) and flatten it into a CompiledNetwork."""
-    layout = check(network, inputs, outputs, where)
-    first = len(layout.inputs) + len(layout.biases)
-    slot = {nid: k for k, nid in enumerate(layout.inputs + layout.biases + layout.computed)}
-    counts = accumulate((len(edges) for edges in layout.incoming), initial=0)
-    in_ptr = np.array(list(counts), dtype=np.uint32)
-    in_src = np.array([slot[s] for edges in layout.incoming for s, _ in edges], dtype=np.uint32)
-    in_w = np.array([w for edges in layout.incoming for _, w in edges], dtype=np.float64)
-    by_id = {n.id: n for n in network.nodes}
-    nodes = [by_id[nid] for nid in layout.computed]
-    return CompiledNetwork(
-        recurrent=network.mode == "recurrent",
-        n_inputs=len(layout.inputs),
-        n_bias=len(layout.biases),
-        n_nodes=first + len(nodes),
-        act=np.array([CODES[n.activation] for n in nodes], dtype=np.uint8),
-        bias=np.array([n.bias for n in nodes], dtype=np.float64),
-        gain=np.array([n.gain for n in nodes], dtype=np.float64),
-        in_ptr=in_ptr,
-        in_src=in_src,
-        in_w=in_w,
-        out_idx=np.array([slot[nid] for nid in layout.outputs], dtype=np.uint32),
-    )
+    """Check ``network`` against every rule of the format (a :class:`NetworkError` names the
+    offender, prefixed by ``where``) and flatten it; see :mod:`.batch`, which does the work."""
+    from .batch import compile_batch  # batch builds on this module's types
+
+    return compile_batch([network], inputs, outputs, lambda _: where).network(0)
 
 
 @numba.njit(cache=True)

@@ -18,7 +18,7 @@ from dataclasses import asdict, dataclass, field
 from typing import Any
 
 from . import provenance
-from .compiled import CompiledNetwork, compile_network
+from .batch import compile_batch
 from .errors import NetworkError
 from .evolver import EvolverSpec
 from .network import Network, to_dict
@@ -135,10 +135,8 @@ class _Clock:
             self.seconds += time.perf_counter() - start
 
 
-def _compiled_batch(
-    batch: Any, generation: int, inputs: int, outputs: int
-) -> tuple[list[Network], list[CompiledNetwork]]:
-    """Check the evolver's batch and compile every network; faults end the run."""
+def _checked_batch(batch: Any, generation: int) -> list[Network]:
+    """The evolver's batch as a list of Network; anything else is a fault that ends the run."""
     if not isinstance(batch, Sequence) or isinstance(batch, str | bytes):
         raise _EvolverFault(
             f"ask() in generation {generation} returned {type(batch).__name__}, "
@@ -146,19 +144,12 @@ def _compiled_batch(
         )
     if len(batch) == 0:
         raise _EvolverFault(f"ask() returned an empty batch in generation {generation}")
-    compiled = []
     for k, net in enumerate(batch):
         if not isinstance(net, Network):
             raise _EvolverFault(
                 f"candidate {k} of generation {generation} is a {type(net).__name__}, not a Network"
             )
-        try:
-            compiled.append(
-                compile_network(net, inputs, outputs, f"candidate {k} of generation {generation}")
-            )
-        except NetworkError as exc:
-            raise _EvolverFault(f"invalid network: {exc}") from None
-    return list(batch), compiled
+    return list(batch)
 
 
 def run_one(spec: RunSpec) -> RunRecord:
@@ -196,17 +187,23 @@ def run_one(spec: RunSpec) -> RunRecord:
             record.evolver_settings = _settings(evolver, clock)
         while record.evaluations < budget:
             generation = record.generations
-            batch, compiled = _compiled_batch(
-                clock.call("ask()", evolver.ask), generation, task_spec.inputs, task_spec.outputs
-            )
-            room = budget - record.evaluations  # never evaluate past the budget
-            batch, compiled = batch[:room], compiled[:room]
+            batch = _checked_batch(clock.call("ask()", evolver.ask), generation)
+            batch = batch[: budget - record.evaluations]  # never evaluate past the budget
+            try:
+                compiled = compile_batch(
+                    batch,
+                    task_spec.inputs,
+                    task_spec.outputs,
+                    f"candidate {{}} of generation {generation}".format,
+                )
+            except NetworkError as exc:
+                raise _EvolverFault(f"invalid network: {exc}") from None
             results = task.evaluate_batch(compiled)
             record.evaluations += len(batch)
             record.generations += 1
             fitness = [r.fitness for r in results]
             top = max(range(len(fitness)), key=fitness.__getitem__)
-            check = task.success_test(compiled[top], results[top])
+            check = task.success_test(compiled.network(top), results[top])
             record.success_evaluations += check.evaluations
             champion = batch[top]
             if check.solved or fitness[top] > best_fitness:

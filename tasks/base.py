@@ -16,10 +16,11 @@ derives that seed from (task, run index), so every evolver meets the same task i
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
-from collections.abc import Mapping, Sequence
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any, ClassVar
 
+from neuroyard.harness.batch import CompiledBatch
 from neuroyard.harness.compiled import CompiledNetwork
 from neuroyard.harness.errors import TaskError
 from neuroyard.harness.evolver import Evaluation, Problem
@@ -82,9 +83,12 @@ class Task(ABC):
     @abstractmethod
     def success_test(self, net: CompiledNetwork, evaluation: Evaluation) -> SuccessCheck: ...
 
-    def evaluate_batch(self, nets: Sequence[CompiledNetwork]) -> list[Evaluation]:
-        """Evaluate several networks; each is one counted evaluation."""
-        return [self.evaluate(net) for net in nets]
+    def evaluate_batch(self, batch: CompiledBatch) -> list[Evaluation]:
+        """Evaluate every network of a batch, in order; each is one counted evaluation.
+
+        Override with a kernel that loops over :func:`~neuroyard.harness.batch.member`
+        when one evaluation is so cheap that a Python call per network would dominate."""
+        return [self.evaluate(batch.network(i)) for i in range(batch.size)]
 
     def problem(self, budget: int) -> Problem:
         """The :class:`Problem` an evolver is started with."""

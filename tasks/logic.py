@@ -15,6 +15,7 @@ import itertools
 import numba
 import numpy as np
 
+from neuroyard.harness.batch import CompiledBatch, member
 from neuroyard.harness.compiled import CompiledNetwork, new_state, reset, step
 from neuroyard.harness.errors import TaskError
 from neuroyard.harness.evolver import Evaluation
@@ -51,6 +52,19 @@ def score_patterns(
     return (n - error) ** 2, solved
 
 
+@numba.njit(cache=True)
+def score_batch(
+    batch: CompiledBatch, patterns: np.ndarray, targets: np.ndarray, recurrent_steps: int
+) -> np.ndarray:
+    """Fitness of every network of a batch (as :func:`score_patterns`), in one call."""
+    fitness = np.empty(batch.size, dtype=np.float64)
+    for i in range(batch.size):
+        net = member(batch, i)
+        steps = recurrent_steps if net.recurrent else 1
+        fitness[i] = score_patterns(net, patterns, targets, steps)[0]
+    return fitness
+
+
 class BooleanTask(Task):
     """A truth table learned by a network with one output; see module docstring."""
 
@@ -76,6 +90,12 @@ class BooleanTask(Task):
 
     def evaluate(self, net: CompiledNetwork) -> Evaluation:
         return Evaluation(float(self._score(net)[0]))
+
+    def evaluate_batch(self, batch: CompiledBatch) -> list[Evaluation]:
+        steps = self.settings["recurrent_steps"]
+        return [
+            Evaluation(f) for f in score_batch(batch, self.patterns, self.targets, steps).tolist()
+        ]
 
     def success_test(self, net: CompiledNetwork, evaluation: Evaluation) -> SuccessCheck:
         return SuccessCheck(solved=bool(self._score(net)[1]), evaluations=1)

@@ -21,19 +21,20 @@ def _plugins_importable(monkeypatch):
 
 @pytest.fixture
 def counted_xor(monkeypatch):
-    """Count every call of the XOR fitness function, independently of the runner."""
+    """Count every fitness evaluation the XOR task makes, independently of the runner."""
     calls = {"evaluate": 0, "success": 0}
-    evaluate, success = Xor.evaluate, Xor.success_test
+    evaluate, success = Xor.evaluate_batch, Xor.success_test
 
-    def counting_evaluate(self, net):
-        calls["evaluate"] += 1
-        return evaluate(self, net)
+    def counting_evaluate(self, batch):
+        results = evaluate(self, batch)
+        calls["evaluate"] += len(results)
+        return results
 
     def counting_success(self, net, evaluation):
         calls["success"] += 1
         return success(self, net, evaluation)
 
-    monkeypatch.setattr(Xor, "evaluate", counting_evaluate)
+    monkeypatch.setattr(Xor, "evaluate_batch", counting_evaluate)
     monkeypatch.setattr(Xor, "success_test", counting_success)
     return calls
 
