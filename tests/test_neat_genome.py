@@ -77,6 +77,15 @@ def test_distance_counts_excess_disjoint_and_weight_difference():
     assert distance(a, b, 1.0, 1.0, 0.4, 0) == pytest.approx(5 / 9 + 0.4)
 
 
+def test_distance_with_stop_at_agrees_on_compatibility():
+    a, b = genome(PARENT_1, hidden=[5]), genome(PARENT_2, hidden=[5, 6])
+    full = distance(a, b, 1.0, 1.0, 0.4, 20)
+    for threshold in (1.0, 3.0, 5.0, 5.3, 6.0):
+        early = distance(a, b, 1.0, 1.0, 0.4, 20, stop_at=threshold)
+        assert (early < threshold) == (full < threshold)
+        assert early == full or early >= threshold
+
+
 def test_distance_of_identical_structure_is_mean_weight_difference():
     a = genome([(0, 0, 3, 1.0, True), (1, 1, 3, 2.0, True), (2, 2, 3, 0.0, False)])
     b = genome([(0, 0, 3, 0.0, True), (1, 1, 3, 2.0, True), (2, 2, 3, 2.0, True)])
@@ -128,6 +137,17 @@ def test_gene_disabled_in_either_parent_stays_disabled_with_75_percent():
     assert all(crossover(a, b, rng, 0.75).genes[1].enabled for _ in range(100))
 
 
+def test_keep_disabled_rule_never_reenables_a_gene_taken_disabled():
+    rng = random.Random(6)
+    a, b = genome(PARENT_1, [5], 2.0), genome(PARENT_2, [5, 6], 1.0)
+    n = 4000
+    children = [crossover(a, b, rng, 0.75, keep_disabled=True) for _ in range(n)]
+    assert not any(c.genes[2].enabled for c in children)  # disabled in both parents
+    # gene 5: taken enabled from a (half the time), then disabled with 75% -> 12.5% enabled
+    enabled_5 = sum(c.genes[5].enabled for c in children)
+    assert abs(enabled_5 / n - 0.125) < 0.02  # 3.8 binomial sd
+
+
 def test_same_innovation_in_one_generation_gets_same_numbers():
     tracker = InnovationTracker(next_node=4, next_innovation=3)
     assert tracker.link(0, 3) == tracker.link(0, 3) == 3
@@ -157,6 +177,36 @@ def test_add_node_splits_link_with_weight_one_in_and_old_weight_out():
     assert twin.hidden == [4] and sorted(twin.genes) == sorted(g.genes)
 
 
+def test_add_node_can_avoid_links_from_the_bias_node():
+    rng = random.Random(0)
+    tracker = InnovationTracker(next_node=4, next_innovation=3)
+    for _ in range(50):
+        g = genome([(0, 0, 3, 0.7, True), (1, 1, 3, -1.3, True), (2, 2, 3, 0.2, True)])
+        assert add_node(g, tracker, rng, skip_bias=LAYOUT.bias)
+        assert g.genes[2].enabled  # the bias link 2 -> 3 is never split
+    only_bias = genome([(2, 2, 3, 0.2, True)])
+    assert not add_node(only_bias, tracker, rng, skip_bias=LAYOUT.bias)
+    assert add_node(only_bias, tracker, rng)
+
+
+def test_exclusive_mutation_keeps_weights_of_a_structural_mutant():
+    config = make_config({"structural_excludes_weights": True, "add_node_prob": 1.0})
+    rng = random.Random(1)
+    tracker = InnovationTracker(next_node=4, next_innovation=3)
+    parent = genome([(0, 0, 3, 0.7, True), (1, 1, 3, -1.3, True), (2, 2, 3, 0.2, True)])
+    child = parent.copy()
+    mutate(child, LAYOUT, tracker, rng, config)
+    assert len(child.hidden) == 1 and len(child.genes) == 5  # one add-node, no add-link
+    assert [child.genes[k].weight for k in (0, 1, 2)] == [0.7, -1.3, 0.2]
+    independent = make_config(
+        {"structural_excludes_weights": False, "add_node_prob": 1.0, "weight_mutation_prob": 1.0}
+    )
+    child = parent.copy()
+    mutate(child, LAYOUT, tracker, rng, independent)
+    assert len(child.hidden) == 1
+    assert [child.genes[k].weight for k in (0, 1, 2)] != [0.7, -1.3, 0.2]
+
+
 def test_add_node_never_duplicates_a_node_the_genome_already_has():
     rng = random.Random(0)
     tracker = InnovationTracker(next_node=4, next_innovation=3)
@@ -179,7 +229,7 @@ def test_add_link_joins_unconnected_nodes_without_cycles():
         assert add_link(trial, LAYOUT, tracker, rng, config)
         (new,) = [trial.genes[k] for k in set(trial.genes) - set(g.genes)]
         seen.add((new.source, new.target))
-        assert -1.0 <= new.weight <= 1.0
+        assert abs(new.weight) <= config.weight_init_range
     # every allowed new link; 3 -> 4 would close the cycle 4 -> 3 -> 4
     assert seen == {(1, 3), (2, 3), (1, 4), (2, 4)}
 

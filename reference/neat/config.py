@@ -33,14 +33,17 @@ class NeatConfig:
     mutate_only_fraction: float
     interspecies_mating_rate: float
     disable_inherited_prob: float
+    inherited_disabled_rule: str
     mutate_crossover_offspring: bool
     weight_mutation_prob: float
     weight_perturb_prob: float
     weight_perturb_power: float
     weight_init_range: float
+    weight_replace_range: float
     weight_limit: float
     add_node_prob: float
     add_link_prob: float
+    split_bias_links: bool
     structural_excludes_weights: bool
     recurrent: bool
     growth: bool

@@ -8,6 +8,7 @@ not, form an acyclic graph; every operation here keeps that true.
 
 from __future__ import annotations
 
+import math
 import random
 from dataclasses import dataclass, field
 
@@ -68,41 +69,45 @@ class Genome:
         return sum(1 for g in self.genes.values() if g.enabled)
 
 
-def distance(a: Genome, b: Genome, c1: float, c2: float, c3: float, normalise_below: int) -> float:
+def distance(
+    a: Genome,
+    b: Genome,
+    c1: float,
+    c2: float,
+    c3: float,
+    normalise_below: int,
+    stop_at: float = math.inf,
+) -> float:
     """Compatibility distance delta = c1*E/N + c2*D/N + c3*W (the paper's eq. 1; LITERATURE.md 1.1).
 
     E: excess genes (innovation beyond the other genome's highest), D: disjoint genes (the
     other non-matching ones), W: mean absolute weight difference of matching genes,
     disabled genes included. N is the gene count of the larger genome, or 1 when it has
-    fewer than ``normalise_below`` genes.
+    fewer than ``normalise_below`` genes. When the gene-count part alone reaches
+    ``stop_at``, that part is returned (a lower bound >= ``stop_at``, enough to tell that
+    the genomes are incompatible) without computing W.
     """
     ga, gb = a.genes, b.genes
+    shared = ga.keys() & gb.keys()
     max_a = max(ga, default=-1)
     max_b = max(gb, default=-1)
-    matching = 0
-    weight_diff = 0.0
-    excess = 0
-    disjoint = 0
-    for k, gene in ga.items():
-        other = gb.get(k)
-        if other is not None:
-            matching += 1
-            weight_diff += abs(gene.weight - other.weight)
-        elif k > max_b:
-            excess += 1
-        else:
-            disjoint += 1
-    for k in gb:
-        if k not in ga:
-            if k > max_a:
-                excess += 1
-            else:
-                disjoint += 1
+    # only the genome with the higher top innovation has excess genes
+    if max_a > max_b:
+        excess = sum(map(max_b.__lt__, ga))
+    else:
+        excess = sum(map(max_a.__lt__, gb))
+    disjoint = len(ga) + len(gb) - 2 * len(shared) - excess
     n = max(len(ga), len(gb))
     if n < normalise_below or n == 0:
         n = 1
-    mean_diff = weight_diff / matching if matching else 0.0
-    return (c1 * excess + c2 * disjoint) / n + c3 * mean_diff
+    structural = (c1 * excess + c2 * disjoint) / n
+    if structural >= stop_at:
+        return structural
+    if shared:
+        mean_diff = math.fsum(abs(ga[k].weight - gb[k].weight) for k in shared) / len(shared)
+    else:
+        mean_diff = 0.0
+    return structural + c3 * mean_diff
 
 
 def fitter_first(a: Genome, b: Genome, rng: random.Random) -> tuple[Genome, Genome]:
@@ -118,14 +123,20 @@ def fitter_first(a: Genome, b: Genome, rng: random.Random) -> tuple[Genome, Geno
 
 
 def crossover(
-    fitter: Genome, other: Genome, rng: random.Random, disable_inherited_prob: float
+    fitter: Genome,
+    other: Genome,
+    rng: random.Random,
+    disable_inherited_prob: float,
+    keep_disabled: bool = False,
 ) -> Genome:
     """Offspring of two parents aligned by innovation number (paper; LITERATURE.md 1.1).
 
     Matching genes are inherited from either parent at random; disjoint and excess genes
     from the fitter parent only, so the child has the fitter parent's structure. A gene
     disabled in either parent is disabled in the child with ``disable_inherited_prob``
-    and enabled otherwise.
+    and enabled otherwise. With ``keep_disabled`` a gene taken from a parent in which it
+    is disabled stays disabled, and the probability applies only to a gene taken enabled
+    from one parent while the other parent has it disabled.
     """
     child: dict[int, ConnectionGene] = {}
     others = other.genes
@@ -137,7 +148,7 @@ def crossover(
         else:
             new = (gene if rng.random() < 0.5 else match).copy()
             disabled = not (gene.enabled and match.enabled)
-        if disabled:
+        if disabled and not (keep_disabled and not new.enabled):
             new.enabled = rng.random() >= disable_inherited_prob
         child[k] = new
     return Genome(list(fitter.hidden), child)

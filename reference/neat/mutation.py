@@ -26,8 +26,13 @@ def mutate(
     is drawn independently.
     """
     grow = config.growth
+    skip_bias = None if config.split_bias_links else layout.bias
     if config.structural_excludes_weights:
-        if grow and rng.random() < config.add_node_prob and add_node(genome, tracker, rng):
+        if (
+            grow
+            and rng.random() < config.add_node_prob
+            and add_node(genome, tracker, rng, skip_bias)
+        ):
             return
         linked = grow and rng.random() < config.add_link_prob
         if linked and add_link(genome, layout, tracker, rng, config):
@@ -38,17 +43,17 @@ def mutate(
     if rng.random() < config.weight_mutation_prob:
         mutate_weights(genome, rng, config)
     if grow and rng.random() < config.add_node_prob:
-        add_node(genome, tracker, rng)
+        add_node(genome, tracker, rng, skip_bias)
     if grow and rng.random() < config.add_link_prob:
         add_link(genome, layout, tracker, rng, config)
 
 
 def mutate_weights(genome: Genome, rng: random.Random, config: NeatConfig) -> None:
     """Each weight: uniform perturbation in [-power, +power] with ``weight_perturb_prob``,
-    otherwise a new value uniform in [-weight_init_range, +weight_init_range]; then clipped
-    to [-weight_limit, +weight_limit]."""
+    otherwise a new value uniform in [-weight_replace_range, +weight_replace_range]; then
+    clipped to [-weight_limit, +weight_limit]."""
     power = config.weight_perturb_power
-    spread = config.weight_init_range
+    spread = config.weight_replace_range
     limit = config.weight_limit
     perturb = config.weight_perturb_prob
     uniform = rng.uniform
@@ -60,16 +65,19 @@ def mutate_weights(genome: Genome, rng: random.Random, config: NeatConfig) -> No
         gene.weight = -limit if weight < -limit else limit if weight > limit else weight
 
 
-def add_node(genome: Genome, tracker: InnovationTracker, rng: random.Random) -> bool:
+def add_node(
+    genome: Genome, tracker: InnovationTracker, rng: random.Random, skip_bias: int | None = None
+) -> bool:
     """Split a random enabled gene a->b into a->new (weight 1) and new->b (the old weight).
 
-    The split gene is disabled (paper; LITERATURE.md 1.1 'Add-node mechanics').
-    Returns False when the genome has no enabled gene to split.
+    The split gene is disabled (paper; LITERATURE.md 1.1 'Add-node mechanics'). Genes
+    leaving node ``skip_bias`` (the bias node, when given) are not split. The gene is
+    drawn uniformly among the candidates. Returns False when there is none.
     """
-    enabled = [g for g in genome.genes.values() if g.enabled]
-    if not enabled:
+    candidates = [g for g in genome.genes.values() if g.enabled and g.source != skip_bias]
+    if not candidates:
         return False
-    old = rng.choice(enabled)
+    old = rng.choice(candidates)
     old.enabled = False
     split = tracker.split(old.innovation, set(genome.hidden))
     genome.hidden.append(split.node)

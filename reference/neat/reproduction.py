@@ -94,7 +94,13 @@ class Breeder:
                 if other_parents and rng.random() < cfg.interspecies_mating_rate:
                     pool = rng.choice(other_parents)
                 fitter, other = fitter_first(mother, rng.choice(pool), rng)
-                child = crossover(fitter, other, rng, cfg.disable_inherited_prob)
+                child = crossover(
+                    fitter,
+                    other,
+                    rng,
+                    cfg.disable_inherited_prob,
+                    keep_disabled=cfg.inherited_disabled_rule == "chosen_parent",
+                )
                 if cfg.mutate_crossover_offspring:
                     self._mutate(child)
             children.append(child)

@@ -79,7 +79,15 @@ class Speciator:
         if not cfg.speciation:
             return self.species[0] if self.species else None
         for s in self.species:
-            d = distance(genome, s.representative, cfg.c1, cfg.c2, cfg.c3, cfg.normalise_below)
+            d = distance(
+                genome,
+                s.representative,
+                cfg.c1,
+                cfg.c2,
+                cfg.c3,
+                cfg.normalise_below,
+                stop_at=cfg.compat_threshold,
+            )
             if d < cfg.compat_threshold:
                 return s
         return None
