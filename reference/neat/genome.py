@@ -88,21 +88,24 @@ def distance(
     the genomes are incompatible) without computing W.
     """
     ga, gb = a.genes, b.genes
-    shared = ga.keys() & gb.keys()
-    max_a = max(ga, default=-1)
-    max_b = max(gb, default=-1)
-    # only the genome with the higher top innovation has excess genes
-    if max_a > max_b:
-        excess = sum(map(max_b.__lt__, ga))
-    else:
-        excess = sum(map(max_a.__lt__, gb))
-    disjoint = len(ga) + len(gb) - 2 * len(shared) - excess
     n = max(len(ga), len(gb))
     if n < normalise_below or n == 0:
         n = 1
-    structural = (c1 * excess + c2 * disjoint) / n
+    if c1 == c2:  # E and D weigh the same: count them together
+        structural = c1 * len(ga.keys() ^ gb.keys()) / n
+    else:
+        max_a = max(ga, default=-1)
+        max_b = max(gb, default=-1)
+        # only the genome with the higher top innovation has excess genes
+        if max_a > max_b:
+            excess = sum(map(max_b.__lt__, ga))
+        else:
+            excess = sum(map(max_a.__lt__, gb))
+        disjoint = len(ga.keys() ^ gb.keys()) - excess
+        structural = (c1 * excess + c2 * disjoint) / n
     if structural >= stop_at:
         return structural
+    shared = ga.keys() & gb.keys()
     if shared:
         mean_diff = math.fsum(abs(ga[k].weight - gb[k].weight) for k in shared) / len(shared)
     else:
