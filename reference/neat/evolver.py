@@ -22,8 +22,9 @@ from .species import Speciator
 class NeatEvolver:
     """NeuroEvolution of Augmenting Topologies (Stanley & Miikkulainen 2002).
 
-    ``NeatEvolver(**settings)``: keys and defaults of ``defaults.toml`` (the paper's values;
-    see :mod:`.config`); an unknown key or a bad value raises ``ValueError`` naming it.
+    ``NeatEvolver(**settings)``: keys and defaults of ``defaults.toml`` (the paper's values
+    where it gives one; every other default says where it comes from, see :mod:`.config`);
+    an unknown key or a bad value raises ``ValueError`` naming it.
     ``config`` holds the full configuration in effect. Randomness comes only from the seed
     given to :meth:`start`, so a run is reproducible.
     """

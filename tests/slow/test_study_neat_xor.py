@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import json
 import math
+import os
 import time
 from pathlib import Path
 
@@ -77,6 +78,7 @@ def run_study() -> dict:
         runs=RUNS,
         seed=SEED,
     )
+    load_before = os.getloadavg()[0]
     start = time.perf_counter()
     with ResultStore(store_path) as store:
         execute(plan, store, workers=WORKERS, progress=False)
@@ -121,6 +123,9 @@ def run_study() -> dict:
             "evolver_seconds_total": evolver_s,
             "harness_seconds_total": harness_s,
             "harness_share": harness_s / (harness_s + evolver_s),
+            # other processes on the machine inflate both shares alike; record how busy it was
+            "load_average_1min_before": load_before,
+            "load_average_1min_after": os.getloadavg()[0],
         },
         "evolver_settings": row.evolver_settings,
         "report": row.to_json(),
@@ -156,6 +161,9 @@ def _markdown(summary: dict, table: str) -> str:
         f"{t['evolver_seconds_total']:.1f} s and harness (validate, compile, evaluate, "
         f"bookkeeping) {t['harness_seconds_total']:.1f} s: harness share "
         f"{t['harness_share']:.1%}",
+        f"- machine load (1-minute average) before / after: "
+        f"{t['load_average_1min_before']:.1f} / {t['load_average_1min_after']:.1f} "
+        f"(on {os.cpu_count()} cores; other work on the machine slows both parts)",
         "",
     ]
     return "\n".join(lines)
