@@ -19,7 +19,7 @@ from .errors import NeuroyardError
 from .evolver import EvolverSpec, read_config
 from .store import DEFAULT_PATH, ResultStore
 
-DEFAULT_EVOLVER = "rwg"  # the best reference evolver available on the quick suite
+DEFAULT_EVOLVER = "neat"  # the best reference evolver on the quick suite
 QUICK_SUITE = ("xor-v1",)
 DEFAULT_RUNS = 10
 

@@ -23,6 +23,9 @@ from .runner import RunRecord
 from .stats import GroupSummary, summarize
 
 FORMATS = ("text", "json", "markdown")
+# Metrics that describe the experiment (sample size, population) rather than its outcome:
+# shown side by side, never as a ratio.
+_SAMPLE_METRICS = ("runs", "population")
 
 
 @dataclass(frozen=True)
@@ -86,7 +89,11 @@ def _comparisons(records: Sequence[RunRecord], s: GroupSummary) -> tuple[Compari
         mismatches = tuple(fig.mismatches(first.task_settings, first.evolver_settings))
         for metric, published in fig.values.items():
             measured = _measured(metric, s, first.evolver_settings)
-            ratio = measured / published if measured is not None and published else None
+            ratio = (
+                measured / published
+                if measured is not None and published and metric not in _SAMPLE_METRICS
+                else None
+            )
             out.append(
                 Comparison(
                     method=fig.method,
