@@ -22,6 +22,7 @@ from typing import Any
 import numpy as np
 
 from neuroyard import tasks
+from neuroyard.harness.batch import CompiledBatch, compile_batch
 from neuroyard.harness.compiled import compile_network, run_sequence
 from neuroyard.harness.network import Connection, Network, Node
 from neuroyard.harness.provenance import versions
@@ -146,30 +147,36 @@ def reference_fitness(ref: ReferenceNet, patterns: Sequence[Sequence[float]], ta
 
 
 def xor_batch(compile_in_timing: bool) -> Workload:
-    """150 XOR networks evaluated through ``tasks.make("xor-v1")``.
+    """150 XOR networks evaluated the way the runner does it: ``compile_batch`` (checks
+    and compiles a whole generation in one call), then ``evaluate_batch`` of
+    ``tasks.make("xor-v1")``.
 
-    With ``compile_in_timing`` the kernel side checks and compiles each network (what the
-    harness does per evaluation) and the reference side builds a ReferenceNet for each;
-    without it both sides get prepared networks and only evaluation is timed.
+    With ``compile_in_timing`` the kernel side checks and compiles the batch and the
+    reference side builds a ReferenceNet per network; without it both sides get prepared
+    networks and only evaluation is timed.
     """
     task = tasks.make("xor-v1")
     networks = xor_networks()
     patterns, targets = task.patterns.tolist(), task.targets.tolist()
+
+    def fitness(batch: CompiledBatch) -> list[float]:
+        return [e.fitness for e in task.evaluate_batch(batch)]
+
     if compile_in_timing:
 
         def kernel() -> list[float]:
-            return [task.evaluate(compile_network(n, 2, 1)).fitness for n in networks]
+            return fitness(compile_batch(networks, 2, 1))
 
         def reference() -> list[float]:
             return [reference_fitness(ReferenceNet(n), patterns, targets) for n in networks]
 
         what = "check + compile + evaluate"
     else:
-        compiled = [compile_network(n, 2, 1) for n in networks]
+        batch = compile_batch(networks, 2, 1)
         refs = [ReferenceNet(n) for n in networks]
 
         def kernel() -> list[float]:
-            return [task.evaluate(c).fitness for c in compiled]
+            return fitness(batch)
 
         def reference() -> list[float]:
             return [reference_fitness(r, patterns, targets) for r in refs]
@@ -180,7 +187,7 @@ def xor_batch(compile_in_timing: bool) -> Workload:
         description=f"{len(networks)} NEAT-like XOR networks ({hidden} hidden nodes in all), {what}",
         kernel=kernel,
         reference=reference,
-        kernel_repeats=50,
+        kernel_repeats=60,
         reference_repeats=20,
     )
 
