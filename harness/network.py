@@ -27,6 +27,7 @@ from __future__ import annotations
 
 import json
 import math
+import numbers
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from importlib import resources
@@ -119,6 +120,15 @@ def _number(value: Any) -> bool:
         return False
 
 
+def _node_id(value: Any) -> bool:
+    """True for an integer (any integral type but bool) that fits in 64 bits."""
+    return (
+        isinstance(value, numbers.Integral)
+        and not isinstance(value, bool)
+        and -(2**63) <= value < 2**63
+    )
+
+
 def _number_problem(value: Any, what: str) -> str:
     """The message for a value that failed :func:`_number`."""
     if isinstance(value, bool) or not isinstance(value, int | float):
@@ -148,8 +158,8 @@ def check(
         if type(node) is not Node:
             raise NetworkError(f"{where}: node list holds {type(node).__name__}, not a Node")
         nid, kind = node.id, node.kind
-        if isinstance(nid, bool) or not isinstance(nid, int):
-            raise NetworkError(f"{where}: node {nid!r}: id must be an integer")
+        if not _node_id(nid):
+            raise NetworkError(f"{where}: node {nid!r}: id must be an integer in [-2**63, 2**63)")
         if nid in kinds:
             raise NetworkError(f"{where}: node {nid}: duplicate node id")
         if kind in _COMPUTED:
@@ -183,10 +193,10 @@ def check(
         if type(conn) is not Connection:
             raise NetworkError(f"{where}: connection list holds {type(conn).__name__}")
         src, dst, w = conn.source, conn.target, conn.weight
-        target = slot.get(dst) if type(dst) is int else None
+        target = slot.get(dst) if _node_id(dst) else None
         if (
             target is None
-            or type(src) is not int
+            or not _node_id(src)
             or src not in kinds
             or not _number(w)
             or type(conn.enabled) is not bool
@@ -209,7 +219,7 @@ def _connection_error(conn: Connection, k: int, kinds: dict[int, str], where: st
     label = f"{where}: connection {k} ({conn.source} -> {conn.target})"
     for end in ("source", "target"):
         value = getattr(conn, end)
-        if isinstance(value, bool) or not isinstance(value, int):
+        if not _node_id(value):
             raise NetworkError(f"{label}: {end} must be an integer node id, got {value!r}")
         if value not in kinds:
             raise NetworkError(f"{label}: {end} node {value!r} does not exist")
@@ -313,7 +323,8 @@ def from_dict(doc: Mapping[str, Any], where: str = "network") -> Network:
         raise NetworkError(f"{where}: unknown keys {sorted(unknown)}")
     if doc.get("format", FORMAT_NAME) != FORMAT_NAME:
         raise NetworkError(f"{where}: format is {doc.get('format')!r}, expected {FORMAT_NAME!r}")
-    if doc.get("version", FORMAT_VERSION) != FORMAT_VERSION:
+    version = doc.get("version", FORMAT_VERSION)
+    if type(version) is not int or version != FORMAT_VERSION:
         raise NetworkError(f"{where}: format version {doc.get('version')!r} is not supported")
     nodes: list[Node] = []
     for k, item in enumerate(_list(doc, "nodes", where)):

@@ -113,3 +113,17 @@ def test_xor_batch_kernel_equals_one_network_at_a_time():
     together = [e.fitness for e in task.evaluate_batch(batch)]
     alone = [task.evaluate(batch.network(i)).fitness for i in range(batch.size)]
     assert together == alone
+
+
+def test_integer_types_and_id_range_agree_between_check_and_compiler():
+    base = random_network(np.random.default_rng(1), recurrent=False)
+    first = base.nodes[0]
+    numpy_id = dataclasses.replace(
+        base,
+        nodes=(dataclasses.replace(first, id=np.int64(first.id)), *base.nodes[1:]),
+    )
+    check(numpy_id)  # numpy integers are integers
+    compile_batch([numpy_id])
+    huge = dataclasses.replace(base, nodes=(dataclasses.replace(first, id=2**70), *base.nodes[1:]))
+    with pytest.raises(NetworkError, match=r"id must be an integer in \[-2\*\*63, 2\*\*63\)"):
+        compile_batch([huge])
