@@ -106,9 +106,16 @@ def run_sequence(net: CompiledNetwork, inputs: np.ndarray, reset_each: bool) -> 
     the logic tasks); otherwise the rows form one episode.
     """
     values, scratch = new_state(net)
-    out = np.zeros((inputs.shape[0], net.out_idx.shape[0]), dtype=np.float64)
+    n_out = net.out_idx.shape[0]
+    out = np.zeros((inputs.shape[0], n_out), dtype=np.float64)
+    row_in = np.zeros(inputs.shape[1], dtype=np.float64)  # plain buffers: no view per step
+    row_out = np.zeros(n_out, dtype=np.float64)
     for t in range(inputs.shape[0]):
         if reset_each:
             reset(net, values)
-        step(net, values, scratch, inputs[t], out[t])
+        for i in range(row_in.shape[0]):
+            row_in[i] = inputs[t, i]
+        step(net, values, scratch, row_in, row_out)
+        for j in range(n_out):
+            out[t, j] = row_out[j]
     return out
