@@ -13,8 +13,7 @@ it in words, so every message comes from one place. Tests hold the two to agreem
 from __future__ import annotations
 
 from collections.abc import Callable, Sequence
-from itertools import accumulate, repeat
-from operator import attrgetter
+from itertools import accumulate
 from typing import NamedTuple
 
 import numba
@@ -23,7 +22,7 @@ import numpy as np
 from .activations import CODES
 from .compiled import CompiledNetwork
 from .errors import NetworkError
-from .network import Network, check
+from .network import Connection, Network, Node, check
 
 _KIND = {"input": 0, "bias": 1, "hidden": 2, "output": 3}
 _MODE = {"feedforward": 0, "recurrent": 1}
@@ -96,38 +95,49 @@ def member(batch: CompiledBatch, i: int) -> CompiledNetwork:
 
 
 def _ints(values: Sequence) -> np.ndarray | None:
-    """int64 array of exact Python/numpy integers (no bools), or None."""
-    arr = np.array(values) if values else np.zeros(0, np.int64)
-    if arr.dtype.kind not in "iu" or bool in set(map(type, values)):
+    """int64 array of integers of any integral type but bool, or None."""
+    types = set(map(type, values))
+    try:
+        if types <= {int}:  # the common case, converted without type inference
+            return np.array(values, dtype=np.int64)
+        arr = np.array(values)
+    except OverflowError:
+        return None
+    if arr.dtype.kind not in "iu" or bool in types:
         return None
     return arr.astype(np.int64, copy=False)
 
 
 def _floats(values: Sequence) -> np.ndarray | None:
     """float64 array of real numbers (no bools, no strings), or None."""
-    arr = np.array(values) if values else np.zeros(0)
-    if arr.dtype.kind not in "fiu" or bool in set(map(type, values)):
+    types = set(map(type, values))
+    if types <= {float, int}:
+        return np.array(values, dtype=np.float64)
+    arr = np.array(values)
+    if arr.dtype.kind not in "fiu" or bool in types:
         return None
     return arr.astype(np.float64, copy=False)
-
-
-_NODE_FIELDS = attrgetter("id", "kind", "activation", "bias", "gain")
-_CONN_FIELDS = attrgetter("source", "target", "weight", "enabled")
 
 
 def _flatten(networks: Sequence[Network]) -> tuple[np.ndarray, ...] | None:
     """Attributes of all nodes and connections as flat arrays, or None when a value has a
     type the kernel cannot take (the slow path then names it)."""
-    node_rows: list[tuple] = []
-    conn_rows: list[tuple] = []
+    nodes: list[Node] = []
+    conns: list[Connection] = []
     try:
-        for net in networks:  # map + attrgetter: one C-level pass per list
-            node_rows += map(_NODE_FIELDS, net.nodes)
-            conn_rows += map(_CONN_FIELDS, net.connections)
-        ids, kinds, acts, biases, gains = zip(*node_rows, strict=True) if node_rows else [()] * 5
-        src, dst, weight, enabled = zip(*conn_rows, strict=True) if conn_rows else [()] * 4
-        kind_codes = list(map(_KIND.get, kinds, repeat(-1)))
-        act_codes = list(map(CODES.get, acts, repeat(-1)))
+        for net in networks:
+            nodes += net.nodes
+            conns += net.connections
+        # one comprehension per field over the whole batch: the cheapest way to read them
+        ids = [n.id for n in nodes]
+        kinds = [_KIND.get(n.kind, -1) for n in nodes]
+        acts = [CODES.get(n.activation, -1) for n in nodes]
+        biases = [n.bias for n in nodes]
+        gains = [n.gain for n in nodes]
+        src = [c.source for c in conns]
+        dst = [c.target for c in conns]
+        weight = [c.weight for c in conns]
+        enabled = [c.enabled for c in conns]
     except (AttributeError, TypeError):  # not a Node/Connection, unhashable activation, ...
         return None
     arrays = (_ints(ids), _floats(biases), _floats(gains), _ints(src), _ints(dst), _floats(weight))
@@ -138,8 +148,8 @@ def _flatten(networks: Sequence[Network]) -> tuple[np.ndarray, ...] | None:
         np.fromiter(accumulate((len(x.nodes) for x in networks), initial=0), np.int64, n + 1),
         np.fromiter(accumulate((len(x.connections) for x in networks), initial=0), np.int64, n + 1),
         np.array([_MODE.get(x.mode, -1) for x in networks], dtype=np.int64),
-        np.array(kind_codes, dtype=np.int64),
-        np.array(act_codes, dtype=np.int64),
+        np.array(kinds, dtype=np.int64),
+        np.array(acts, dtype=np.int64),
         np.array(enabled, dtype=np.bool_),
         *arrays,
     )
