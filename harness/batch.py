@@ -155,10 +155,6 @@ def _flatten(networks: Sequence[Network]) -> tuple[np.ndarray, ...] | None:
     )
 
 
-# Codes the kernel returns; anything but OK sends the network to check() for the message.
-OK, BAD = 0, 1
-
-
 @numba.njit(cache=True)
 def _compile_all(
     node_ptr, conn_ptr, modes, kinds, acts, enabled, ids, biases, gains, src, dst, weight,
@@ -186,29 +182,14 @@ def _compile_all(
     in_src = np.zeros(n_conn_total, np.uint32)
     in_w = np.zeros(n_conn_total)
     out_idx = np.zeros(n_nodes_total, np.uint32)
+    failed = -1
     for i in range(size):
         a, b = node_ptr[i], node_ptr[i + 1]
         c, d = conn_ptr[i], conn_ptr[i + 1]
         n = b - a
         if modes[i] < 0:
-            return (
-                i,
-                recurrent,
-                n_inputs,
-                n_bias,
-                n_nodes,
-                node_out,
-                ptr_out,
-                edge_out,
-                outs_out,
-                act,
-                bias,
-                gain,
-                in_ptr,
-                in_src,
-                in_w,
-                out_idx,
-            )  # noqa: E501
+            failed = i
+            break
         # node ids: sorted copy for duplicate detection and lookups
         order = np.argsort(ids[a:b], kind="mergesort")
         sorted_ids = ids[a:b][order]
@@ -255,24 +236,8 @@ def _compile_all(
                 bad = True
                 break
         if bad:
-            return (
-                i,
-                recurrent,
-                n_inputs,
-                n_bias,
-                n_nodes,
-                node_out,
-                ptr_out,
-                edge_out,
-                outs_out,
-                act,
-                bias,
-                gain,
-                in_ptr,
-                in_src,
-                in_w,
-                out_idx,
-            )  # noqa: E501
+            failed = i
+            break
         # enabled connections grouped by target and by source, each in connection order
         by_target = _group(dst_pos, enabled[c:d], n)
         by_source = _group(src_pos, enabled[c:d], n)
@@ -308,24 +273,8 @@ def _compile_all(
                         stack[top] = t
                         top += 1
             if m < n_comp:  # a cycle
-                return (
-                    i,
-                    recurrent,
-                    n_inputs,
-                    n_bias,
-                    n_nodes,
-                    node_out,
-                    ptr_out,
-                    edge_out,
-                    outs_out,
-                    act,
-                    bias,
-                    gain,
-                    in_ptr,
-                    in_src,
-                    in_w,
-                    out_idx,
-                )  # noqa: E501
+                failed = i
+                break
         s_in = 0
         s_b = n_in
         for k in range(n):
@@ -367,7 +316,7 @@ def _compile_all(
         edge_out[i + 1] = ea + edges
         outs_out[i + 1] = oa + outs
     return (
-        -1,
+        failed,
         recurrent,
         n_inputs,
         n_bias,
@@ -383,7 +332,7 @@ def _compile_all(
         in_src,
         in_w,
         out_idx,
-    )  # noqa: E501
+    )
 
 
 @numba.njit(cache=True)

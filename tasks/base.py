@@ -24,6 +24,7 @@ from neuroyard.harness.batch import CompiledBatch
 from neuroyard.harness.compiled import CompiledNetwork
 from neuroyard.harness.errors import TaskError
 from neuroyard.harness.evolver import Evaluation, Problem
+from neuroyard.harness.settings import matches_default
 
 
 @dataclass(frozen=True)
@@ -107,14 +108,7 @@ class Task(ABC):
 
 def _coerce(task_id: str, key: str, default: Any, value: Any) -> Any:
     """Check a setting against the type of its default (ints are accepted for floats)."""
-    if isinstance(default, bool):
-        ok = isinstance(value, bool)
-    elif isinstance(default, int):
-        ok = isinstance(value, int) and not isinstance(value, bool)
-    elif isinstance(default, float):
-        ok = isinstance(value, int | float) and not isinstance(value, bool)
-    else:
-        ok = isinstance(value, type(default))
+    ok = matches_default(default, value)
     if not ok:
         raise TaskError(
             f"task {task_id}: setting {key!r} must be {type(default).__name__}, got {value!r}"

@@ -16,6 +16,8 @@ from functools import cache
 from importlib import resources
 from typing import Any
 
+from neuroyard.harness.settings import matches_default
+
 
 @dataclass(frozen=True)
 class NeatConfig:
@@ -106,15 +108,7 @@ def _checked(param: Parameter, raw: Any) -> Any:
     value = _parse_text(raw) if isinstance(raw, str) and param.choices == () else raw
     default = param.default
     name = param.name
-    if isinstance(default, bool):
-        ok = isinstance(value, bool)
-    elif isinstance(default, int):
-        ok = isinstance(value, int) and not isinstance(value, bool)
-    elif isinstance(default, float):
-        ok = isinstance(value, int | float) and not isinstance(value, bool)
-    else:
-        ok = isinstance(value, str)
-    if not ok:
+    if not matches_default(default, value):
         raise ValueError(f"NEAT setting {name!r} must be {type(default).__name__}, got {raw!r}")
     if isinstance(default, float):
         value = float(value)

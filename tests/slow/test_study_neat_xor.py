@@ -2,7 +2,7 @@
 
 Run it (about 2-5 minutes on 2 cores) with::
 
-    /work/venv/bin/pytest -m slow tests/slow/test_study_neat_xor.py
+    python -m pytest -m slow tests/slow/test_study_neat_xor.py
 
 It runs 100 XOR runs of the reference NEAT at population 150 on 2 worker processes into a
 fresh store ``results/neat_xor/xor.db`` (the same as ``neuroyard run --evolver neat --task
