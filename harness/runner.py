@@ -106,11 +106,13 @@ class RunRecord:
         return self.status == SOLVED
 
     def to_dict(self) -> dict[str, Any]:
-        return asdict(self)
+        """All fields as JSON values, plus ``solved`` (derived from ``status``)."""
+        return {**asdict(self), "solved": self.solved}
 
     @classmethod
     def from_dict(cls, doc: Mapping[str, Any]) -> RunRecord:
         data = dict(doc)
+        data.pop("solved", None)
         data["log"] = [GenerationLog(**g) for g in data.get("log", [])]
         return cls(**data)
 

@@ -57,9 +57,10 @@ def test_two_stores_same_campaign_identical_exports(tmp_path, capsys):
         lines = [json.loads(line) for line in out.splitlines()]
         assert len(lines) == 20
         for line in lines:
-            assert {"seed", "status", "evaluations", "generations", "best_network", "log"} <= set(
+            assert {"seed", "solved", "evaluations", "generations", "best_network", "log"} <= set(
                 line
             )
+            assert line["solved"] == (line["status"] == "solved")
             line.pop("timing"), line.pop("host")
         exports.append(lines)
     assert exports[0] == exports[1]
