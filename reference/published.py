@@ -17,6 +17,9 @@ File layout (one file per task family)::
     protocol = { "evolver.population_size" = 150, "task.start_angle" = 0.0175 }
     values = { mean_evaluations = 4755, sd_evaluations = 2553 }
 
+Besides figures (results), a file may hold named tables of published protocol constants
+(equations' constants, start states, test grids) that task code reads with :func:`protocol`.
+
 ``protocol`` keys are ``task.<setting>`` or ``evolver.<config key>``; a measured result is
 comparable with the figure only when every such key has the same value in the run.
 """
@@ -131,14 +134,33 @@ def _parse(doc: Mapping[str, Any], where: str) -> list[ReferenceFigure]:
 
 
 @cache
+def _family(name: str) -> dict[str, Any]:
+    """The parsed file ``reference/figures/<name>.toml``."""
+    path = resources.files("neuroyard.reference") / "figures" / f"{name}.toml"
+    return tomllib.loads(path.read_text())
+
+
+def _families() -> list[str]:
+    folder = resources.files("neuroyard.reference") / "figures"
+    return sorted(p.name[:-5] for p in folder.iterdir() if p.name.endswith(".toml"))
+
+
+@cache
 def all_figures() -> tuple[ReferenceFigure, ...]:
     """Every figure of every file in ``reference/figures``."""
     figures: list[ReferenceFigure] = []
-    folder = resources.files("neuroyard.reference") / "figures"
-    for entry in sorted(folder.iterdir(), key=lambda p: p.name):
-        if entry.name.endswith(".toml"):
-            figures += _parse(tomllib.loads(entry.read_text()), f"reference/figures/{entry.name}")
+    for name in _families():
+        figures += _parse(_family(name), f"reference/figures/{name}.toml")
     return tuple(figures)
+
+
+def protocol(family: str, table: str) -> dict[str, Any]:
+    """A table of published protocol constants (task definitions, not results), such as
+    ``protocol("pole", "generalization")``; each table says its source and provenance."""
+    try:
+        return dict(_family(family)[table])
+    except (FileNotFoundError, KeyError):
+        raise NeuroyardError(f"reference/figures/{family}.toml has no table [{table}]") from None
 
 
 def figures_for(task: str, method: str | None = None) -> list[ReferenceFigure]:

@@ -20,12 +20,13 @@ import numba
 import numpy as np
 
 from neuroyard.harness.compiled import CompiledNetwork, new_state, step
+from neuroyard.reference.published import protocol
 
 from .physics import KERNEL, Physics, integration_step, new_workspace, pack_constants
 
 # Gruau, Whitley & Pyeatt 1996: the damped fitness looks at the last 100 steps
-# (LITERATURE.md sec. 2.7, from memory, MEMORY-high).
-JIGGLE_WINDOW = 100
+# (reference/figures/pole.toml, table damped_fitness).
+JIGGLE_WINDOW: int = protocol("pole", "damped_fitness")["window"]
 
 # Force mapping codes used inside the kernels.
 FORCE_MAPPINGS: dict[str, int] = {"linear": 0, "bang-bang": 1}

@@ -10,12 +10,12 @@ from __future__ import annotations
 
 import itertools
 import math
-import tomllib
 from dataclasses import dataclass
 from functools import cache
-from importlib import resources
 
 import numpy as np
+
+from neuroyard.reference import published
 
 
 @dataclass(frozen=True)
@@ -33,8 +33,7 @@ class GeneralizationProtocol:
 @cache
 def protocol() -> GeneralizationProtocol:
     """The test's constants as published (read from reference/figures/pole.toml)."""
-    path = resources.files("neuroyard.reference") / "figures" / "pole.toml"
-    table = tomllib.loads(path.read_text())["generalization"]
+    table = published.protocol("pole", "generalization")
     return GeneralizationProtocol(
         fractions=tuple(float(f) for f in table["fractions"]),
         half_ranges=(

@@ -17,7 +17,6 @@ choice is marked ``from memory`` and explained beside the setting below.
 
 from __future__ import annotations
 
-import math
 from typing import Any, ClassVar
 
 import numpy as np
@@ -25,6 +24,7 @@ import numpy as np
 from neuroyard.harness.compiled import CompiledNetwork
 from neuroyard.harness.errors import TaskError
 from neuroyard.harness.evolver import Evaluation
+from neuroyard.reference.published import protocol as protocol_table
 
 from ..base import SuccessCheck, Task, TaskSpec
 from ..registry import register
@@ -47,53 +47,22 @@ BARTO_1983 = (
     "LITERATURE.md sec. 3)"
 )
 
-# Gruau, Whitley & Pyeatt 1996 damped fitness weights (LITERATURE.md sec. 2.7, from memory,
-# MEMORY-high): F = 0.1 t / T + 0.9 * 0.75 / jiggle.
-DAMPED_STEP_WEIGHT = 0.1
-DAMPED_JIGGLE_WEIGHT = 0.9
-DAMPED_JIGGLE_NUMERATOR = 0.75
+# Published constants (values, sources and provenance in reference/figures/pole.toml).
+_DAMPED = protocol_table("pole", "damped_fitness")
+DAMPED_STEP_WEIGHT = _DAMPED["step_weight"]
+DAMPED_JIGGLE_WEIGHT = _DAMPED["jiggle_weight"]
+DAMPED_JIGGLE_NUMERATOR = _DAMPED["jiggle_numerator"]
 
-# Settings shared by the family; values from LITERATURE.md sec. 2.2 unless noted.
-COMMON_DEFAULTS: dict[str, Any] = {
-    "tau": 0.01,  # s per RK4 step (MEMORY-high)
-    "integrator": "rk4",  # (MEMORY-high); "euler" gives the classic single-pole update
-    # Sources differ: one or two 0.01-s steps per network action. Two, because "100,000
-    # steps = 30 min" fits 0.02 s per action and the NEAT authors' simulator is recalled
-    # to do this (from memory, MEMORY-medium; LITERATURE.md sec. 2.3).
-    "substeps": 2,
-    # Sources differ: 1 deg (Wieland/Gruau), 4.5 deg (Gomez lineage), 0.07 rad (the NEAT
-    # authors' reference simulator). 0.07 rad, because the gated reference figures are
-    # NEAT 2002's (from memory, MEMORY-medium; LITERATURE.md sec. 2.4).
-    "start_angle": 0.07,
-    "track_limit": 2.4,  # m (MEMORY-high)
-    "force_mapping": "linear",  # F = 10 (2 out - 1) (MEMORY-medium); or "bang-bang"
-    "max_force": 10.0,  # N (MEMORY-high)
-    "cart_mass": 1.0,  # kg (MEMORY-high)
-    "gravity": 9.8,  # m/s^2 magnitude (MEMORY-high)
-    "cart_friction": 5e-4,  # (MEMORY-high)
-    "pole_friction": 2e-6,  # (MEMORY-high)
-    "long_pole_mass": 0.1,  # kg (MEMORY-high)
-    "long_pole_half_length": 0.5,  # m (MEMORY-high)
-    # Input divisors of this lineage (MEMORY-medium; LITERATURE.md sec. 2.5).
-    "scale_x": 2.4,
-    "scale_velocity": 10.0,
-    "scale_angle": math.radians(36.0),
-    "scale_angular_velocity_1": 5.0,
-    "episode_steps": 100_000,  # evaluation episode cap (the success horizon)
-    "success_steps": 100_000,  # (MEMORY-high; LITERATURE.md sec. 2.6)
-}
-SHORT_POLE_DEFAULTS: dict[str, Any] = {
-    "short_pole_mass": 0.01,  # kg (MEMORY-high)
-    "short_pole_half_length": 0.05,  # m (MEMORY-high)
-    "scale_angular_velocity_2": 16.0,  # (MEMORY-medium)
-    "failure_angle": math.radians(36.0),  # rad (MEMORY-high)
-}
-SINGLE_POLE_DEFAULTS: dict[str, Any] = {
-    # Sources differ: 12 deg (Barto et al. 1983, gymnasium) or 36 deg (some neuroevolution
-    # papers). 12 deg, the original cart-pole limit and the harder of the two (from
-    # memory; LITERATURE.md sec. 3).
-    "failure_angle": math.radians(12.0),
-}
+
+def _defaults(table: str) -> dict[str, Any]:
+    """Task settings from a protocol table (without its source and provenance fields)."""
+    values = protocol_table("pole", table)
+    return {k: v for k, v in values.items() if k not in ("source", "provenance")}
+
+
+COMMON_DEFAULTS = _defaults("task_defaults")
+SHORT_POLE_DEFAULTS = _defaults("task_defaults_two_poles")
+SINGLE_POLE_DEFAULTS = _defaults("task_defaults_one_pole")
 POSITIVE_SETTINGS = (
     "tau",
     "track_limit",
@@ -319,7 +288,7 @@ class DoublePoleNonMarkov(PoleBalancing):
     defaults = {
         **COMMON_DEFAULTS,
         **SHORT_POLE_DEFAULTS,
-        "episode_steps": 1_000,  # Gruau et al. 1996 (MEMORY-high; LITERATURE.md sec. 2.7)
+        "episode_steps": _DAMPED["episode_steps"],
         "damped_fitness": True,
         "generalization_test": True,
     }
