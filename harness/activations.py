@@ -78,7 +78,7 @@ def apply(code: int, x: float) -> float:
     if code == 0:
         return _logistic_jit(x)
     if code == 1:
-        return _logistic_jit(4.9 * x)
+        return _logistic_jit(NEAT_SIGMOID_SLOPE * x)
     if code == 2:
         return math.tanh(x)
     if code == 3:
