@@ -382,6 +382,28 @@ def loads(text: str, where: str = "network") -> Network:
     return from_dict(doc, where)
 
 
+def layered_links(
+    inputs: int, outputs: int, hidden: int = 0, recurrent: bool = False
+) -> list[tuple[int, int]]:
+    """The (source, target) links of :func:`fully_connected`, in its connection order.
+
+    Ids: inputs 0..inputs-1, the bias node, the hidden nodes, the outputs. Without hidden
+    nodes every input and the bias feed every output; with hidden nodes, inputs and bias
+    feed every hidden node (and, when ``recurrent``, every hidden node feeds every hidden
+    node, self-loops included), and hidden nodes and bias feed every output.
+    """
+    ins = list(range(inputs))
+    bias = inputs
+    hid = list(range(bias + 1, bias + 1 + hidden))
+    outs = list(range(bias + 1 + hidden, bias + 1 + hidden + outputs))
+    if not hid:
+        return [(s, t) for t in outs for s in [*ins, bias]]
+    pairs = [(s, t) for t in hid for s in [*ins, bias]]
+    if recurrent:
+        pairs += [(s, t) for t in hid for s in hid]
+    return pairs + [(s, t) for t in outs for s in [*hid, bias]]
+
+
 def fully_connected(
     inputs: int,
     outputs: int,
@@ -389,27 +411,19 @@ def fully_connected(
     activation: str = "neat_sigmoid",
     hidden: int = 0,
     mode: Mode = "feedforward",
+    links: list[tuple[int, int]] | None = None,
 ) -> Network:
-    """Helper: inputs + one bias node, optional hidden layer, outputs; ids 0.. in that order.
-
-    Without hidden nodes every input and the bias connect to every output; with hidden
-    nodes, inputs and bias connect to every hidden node and hidden nodes and bias to every
-    output. ``weights`` (in connection order) default to 0.
-    """
-    ins = list(range(inputs))
+    """A layered network (see :func:`layered_links`; recurrent mode adds the hidden-to-hidden
+    links). ``weights`` follow the connection order and default to 0; ``links`` may pass
+    the precomputed :func:`layered_links` of the same shape."""
+    if links is None:
+        links = layered_links(inputs, outputs, hidden, mode == "recurrent")
     bias = inputs
-    hid = list(range(inputs + 1, inputs + 1 + hidden))
-    outs = list(range(inputs + 1 + hidden, inputs + 1 + hidden + outputs))
-    nodes = [Node(i, "input") for i in ins] + [Node(bias, "bias")]
-    nodes += [Node(i, "hidden", activation) for i in hid]
-    nodes += [Node(i, "output", activation) for i in outs]
-    pairs = (
-        [(s, t) for t in hid for s in ins + [bias]] + [(s, t) for t in outs for s in hid + [bias]]
-        if hidden
-        else [(s, t) for t in outs for s in ins + [bias]]
-    )
-    w = list(weights) if weights is not None else [0.0] * len(pairs)
-    if len(w) != len(pairs):
-        raise NetworkError(f"fully_connected: {len(pairs)} connections need {len(pairs)} weights")
-    conns = tuple(Connection(s, t, float(x)) for (s, t), x in zip(pairs, w, strict=True))
+    nodes = [Node(i, "input") for i in range(inputs)] + [Node(bias, "bias")]
+    nodes += [Node(bias + 1 + k, "hidden", activation) for k in range(hidden)]
+    nodes += [Node(bias + 1 + hidden + k, "output", activation) for k in range(outputs)]
+    w = list(weights) if weights is not None else [0.0] * len(links)
+    if len(w) != len(links):
+        raise NetworkError(f"fully_connected: {len(links)} connections need {len(links)} weights")
+    conns = tuple(Connection(s, t, float(x)) for (s, t), x in zip(links, w, strict=True))
     return Network(tuple(nodes), conns, mode)

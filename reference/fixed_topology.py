@@ -4,8 +4,9 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from functools import cached_property
 
-from neuroyard.harness.network import Connection, Network, Node
+from neuroyard.harness.network import Network, fully_connected, layered_links
 
 
 @dataclass(frozen=True)
@@ -28,18 +29,10 @@ class FixedTopology:
         if self.hidden < 0:
             raise ValueError(f"hidden must be >= 0, got {self.hidden}")
 
-    @property
+    @cached_property
     def links(self) -> list[tuple[int, int]]:
-        ins = list(range(self.inputs))
-        bias = self.inputs
-        hid = list(range(bias + 1, bias + 1 + self.hidden))
-        outs = list(range(bias + 1 + self.hidden, bias + 1 + self.hidden + self.outputs))
-        if not hid:
-            return [(s, t) for t in outs for s in [*ins, bias]]
-        pairs = [(s, t) for t in hid for s in [*ins, bias]]
-        if self.recurrent:
-            pairs += [(s, t) for t in hid for s in hid]
-        return pairs + [(s, t) for t in outs for s in [*hid, bias]]
+        """(source, target) of every weight, in weight order."""
+        return layered_links(self.inputs, self.outputs, self.hidden, self.recurrent)
 
     @property
     def n_weights(self) -> int:
@@ -47,12 +40,7 @@ class FixedTopology:
 
     def network(self, weights: Sequence[float]) -> Network:
         """The network with these weights (one per link, in :attr:`links` order)."""
-        bias = self.inputs
-        nodes = [Node(i, "input") for i in range(self.inputs)] + [Node(bias, "bias")]
-        nodes += [Node(bias + 1 + k, "hidden", self.activation) for k in range(self.hidden)]
-        first_out = bias + 1 + self.hidden
-        nodes += [Node(first_out + k, "output", self.activation) for k in range(self.outputs)]
-        conns = tuple(
-            Connection(s, t, float(w)) for (s, t), w in zip(self.links, weights, strict=True)
+        mode = "recurrent" if self.recurrent else "feedforward"
+        return fully_connected(
+            self.inputs, self.outputs, weights, self.activation, self.hidden, mode, self.links
         )
-        return Network(tuple(nodes), conns, "recurrent" if self.recurrent else "feedforward")
