@@ -36,6 +36,20 @@ SEED = 1
 WORKERS = 2
 MEAN_TOLERANCE = 2.0  # issue 4 acceptance: mean evaluations <= 2 x the published mean
 
+# Free NEAT parameters (the paper gives no number) chosen for the DPNV study, on top of the
+# paper's stated DPNV settings in the figure's protocol. With the XOR-tuned weight
+# magnitudes (initial range 2.5, perturbation 3.5) and the paper's c3 = 3.0 / threshold 4.0,
+# nearly every genome formed its own species (about 800 species of 1,000 genomes, so fitness
+# sharing selected almost nothing and speciation took ~1 s per generation). Initial range
+# 1.0 is the authors' setup (from memory, MEMORY-medium); perturbation and replacement 1.0
+# were chosen so that species hold about five genomes (150-270 species; probes with
+# campaign seed 1, runs 0-7: perturbation 0.5 collapsed to one species, 2.0 gave ~550).
+DPNV_FREE_PARAMETERS: dict[str, Any] = {
+    "weight_init_range": 1.0,
+    "weight_perturb_power": 1.0,
+    "weight_replace_range": 1.0,
+}
+
 
 def gating_figure(task: str, metric: str) -> ReferenceFigure:
     """The published NEAT figure for ``task`` that carries ``metric`` and may gate."""
@@ -152,9 +166,8 @@ def test_study_double_pole_nonmarkov() -> None:
     >= 18/20 solved, mean evaluations <= 2 x the NEAT 2002 figure (sec. 4.4, DPNV table),
     mean generalization >= the test's pass count."""
     figure = gating_figure("pole2-nonmarkov-v1", "mean_evaluations")
-    records, summary = run_study(
-        "dpnv", "pole2-nonmarkov-v1", 20, 1_000_000, evolver_settings(figure)
-    )
+    settings = {**evolver_settings(figure), **DPNV_FREE_PARAMETERS}
+    records, summary = run_study("dpnv", "pole2-nonmarkov-v1", 20, 1_000_000, settings)
     assert_comparable(figure, records)
     assert summary.runs == 20
     assert summary.solved >= 18
