@@ -9,6 +9,7 @@ the 625-start generalization test under 1 s.
 
 from __future__ import annotations
 
+import statistics
 import time
 from collections.abc import Callable
 
@@ -53,14 +54,19 @@ def ten_node_recurrent_controller() -> Network:
 
 
 def seconds(benchmark, fn: Callable[[], object], rounds: int) -> float:
-    """Best CPU time of ``fn`` over ``rounds``; pytest-benchmark also records wall times.
+    """Median CPU time of ``fn`` over ``rounds``; pytest-benchmark also records wall times.
 
     The targets are per core, so they are checked on this process's CPU time
     (time.process_time): on a shared 2-core machine wall time also counts waiting.
     """
     if not benchmark.disabled:
         benchmark.pedantic(fn, rounds=rounds, iterations=1, warmup_rounds=1)
-    return min(_cpu_time(fn) for _ in range(rounds))
+    return median_cpu_time(fn, rounds)
+
+
+def median_cpu_time(fn: Callable[[], object], rounds: int) -> float:
+    """Median CPU seconds of ``fn`` over ``rounds`` calls."""
+    return statistics.median(_cpu_time(fn) for _ in range(rounds))
 
 
 def _cpu_time(fn: Callable[[], object]) -> float:
@@ -108,7 +114,7 @@ def test_bench_dpv_kernel_vs_plain_python(benchmark, dpv) -> None:
 
     assert plain_episode() == PLAIN_STEPS
     plain_rate = PLAIN_STEPS / seconds(benchmark, plain_episode, rounds=3)
-    kernel_rate = KERNEL_STEPS / min(_cpu_time(lambda: kernel_episode(task, net)) for _ in range(5))
+    kernel_rate = KERNEL_STEPS / median_cpu_time(lambda: kernel_episode(task, net), 5)
     ratio = kernel_rate / plain_rate
     benchmark.extra_info.update(plain_steps_per_second=plain_rate, speedup=ratio)
     print(f"\nplain Python {plain_rate:,.0f} steps/s; numba {kernel_rate:,.0f}; ratio {ratio:.0f}x")
