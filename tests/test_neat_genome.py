@@ -247,6 +247,24 @@ def test_add_link_in_recurrent_mode_allows_cycles_and_self_loops():
     assert {(3, 4), (3, 3), (4, 4)} <= seen
 
 
+@pytest.mark.parametrize("prob", [0.0, 0.3, 1.0])
+def test_add_link_by_probability_closes_a_cycle_with_the_given_chance(prob):
+    config = make_config(
+        {"recurrent": True, "recurrent_link_choice": "by_probability", "recurrent_link_prob": prob}
+    )
+    rng = random.Random(3)
+    tracker = InnovationTracker(next_node=5, next_innovation=10)
+    g = genome([(0, 0, 3, 0.5, True), (1, 0, 4, 1.0, True), (2, 4, 3, 0.5, True)], hidden=[4])
+    cyclic = {(3, 4), (3, 3), (4, 4)}  # the free pairs that close a cycle; 4 others do not
+    closed = 0
+    for _ in range(400):
+        trial = g.copy()
+        assert add_link(trial, LAYOUT, tracker, rng, config)
+        (new,) = [trial.genes[k] for k in set(trial.genes) - set(g.genes)]
+        closed += (new.source, new.target) in cyclic
+    assert closed / 400 == pytest.approx(prob, abs=0.07)
+
+
 @pytest.mark.parametrize("recurrent", [False, True])
 def test_mutated_and_crossed_genomes_decode_to_valid_networks(recurrent):
     # The harness's validator is the outside check: no cycle in feedforward mode,

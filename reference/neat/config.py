@@ -48,6 +48,8 @@ class NeatConfig:
     split_bias_links: bool
     structural_excludes_weights: bool
     recurrent: bool
+    recurrent_link_choice: str
+    recurrent_link_prob: float
     growth: bool
     speciation: bool
     crossover: bool

@@ -97,15 +97,21 @@ def add_link(
 
     Targets are hidden and output nodes. Without ``config.recurrent`` a link that would
     close a cycle (through any gene, enabled or not) is never chosen; with it, any pair
-    is allowed, self-loops included. The pair is drawn uniformly among the allowed ones.
-    Returns False when no pair is left.
+    is allowed, self-loops included, and with ``recurrent_link_choice = "by_probability"``
+    the new link closes a cycle with ``recurrent_link_prob`` and is feedforward otherwise.
+    The pair is drawn uniformly among the allowed ones. Returns False when there is none.
     """
     targets = genome.hidden + list(layout.outputs)
     sources = list(layout.sources) + targets
     existing = {(g.source, g.target) for g in genome.genes.values()}
     candidates = [(s, t) for s in sources for t in targets if (s, t) not in existing]
+    want_cycle = False  # the only allowed kind without recurrence
+    if config.recurrent:
+        want_cycle = None  # any pair
+        if config.recurrent_link_choice == "by_probability":
+            want_cycle = rng.random() < config.recurrent_link_prob
     successors: dict[int, list[int]] | None = None
-    if not config.recurrent:
+    if want_cycle is not None:
         successors = {}
         for g in genome.genes.values():
             successors.setdefault(g.source, []).append(g.target)
@@ -114,7 +120,7 @@ def add_link(
         source, target = candidates[k]
         candidates[k] = candidates[-1]
         candidates.pop()
-        if successors is not None and _reaches(target, source, successors):
+        if successors is not None and _reaches(target, source, successors) != want_cycle:
             continue
         spread = config.weight_init_range
         innovation = tracker.link(source, target)
