@@ -108,8 +108,7 @@ class Task(ABC):
 
 def _coerce(task_id: str, key: str, default: Any, value: Any) -> Any:
     """Check a setting against the type of its default (ints are accepted for floats)."""
-    ok = matches_default(default, value)
-    if not ok:
+    if not matches_default(default, value):
         raise TaskError(
             f"task {task_id}: setting {key!r} must be {type(default).__name__}, got {value!r}"
         )
