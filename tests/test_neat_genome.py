@@ -29,6 +29,7 @@ from neuroyard.reference.neat.genome import (
 )
 from neuroyard.reference.neat.innovation import InnovationTracker
 from neuroyard.reference.neat.mutation import add_link, add_node, mutate
+from neuroyard.reference.neat.species import Speciator
 
 LAYOUT = Layout.for_problem(inputs=2, outputs=1)  # inputs 0, 1; bias 2; output 3
 
@@ -291,3 +292,19 @@ def test_mutated_and_crossed_genomes_decode_to_valid_networks(recurrent):
         assert [n.id for n in net.nodes if n.kind == "hidden"] == g.hidden
         assert net.meta["innovations"] == tuple(g.genes)
     assert max(len(g.hidden) for g in population) > 2  # the test did grow structure
+
+
+@pytest.mark.parametrize("rule", ["random_member", "champion"])
+def test_species_representative_is_a_member_or_the_champion(rule):
+    config = make_config({"species_representative": rule})
+    members = [
+        genome([(0, 0, 3, w, True)], fitness=f) for w, f in [(0.1, 2.0), (0.2, 9.0), (0.3, 5.0)]
+    ]
+    speciator = Speciator(config)
+    speciator.assign(members, generation=0)
+    chosen = set()
+    for seed in range(20):
+        speciator.pick_representatives(random.Random(seed))
+        chosen.add(speciator.species[0].representative.genes[0].weight)
+    # paper sec. 3.3 (from memory): a random member; the authors' setup: the champion
+    assert chosen == ({0.1, 0.2, 0.3} if rule == "random_member" else {0.2})

@@ -29,6 +29,7 @@ class NeatConfig:
     c3: float
     compat_threshold: float
     normalise_below: int
+    species_representative: str
     stagnation_generations: int
     champion_copy_above: int
     survival_fraction: float

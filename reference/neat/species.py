@@ -1,6 +1,7 @@
 """Speciation: grouping genomes by compatibility distance (paper; LITERATURE.md 1.1).
 
-Each species is represented by a random member of the previous generation. A genome joins
+Each species is represented by a member of the previous generation: a random one (the
+paper) or its champion (``species_representative``). A genome joins
 the first species (in order of creation) whose representative is closer than the
 compatibility threshold; a genome that fits none founds a new species and represents it.
 """
@@ -52,9 +53,14 @@ class Speciator:
     next_id: int = 0
 
     def pick_representatives(self, rng: random.Random) -> None:
-        """Each species is represented by a random member of the generation just evaluated."""
+        """Each species is represented by a member of the generation just evaluated: a
+        random one, or with ``species_representative = "champion"`` the fittest (the first
+        listed among equals)."""
+        champion = self.config.species_representative == "champion"
         for s in self.species:
-            s.representative = rng.choice(s.members)
+            s.representative = (
+                max(s.members, key=lambda g: g.fitness) if champion else rng.choice(s.members)
+            )
 
     def drop(self, keep: Iterable[int]) -> None:
         """Remove every species whose id is not in ``keep`` (extinct or stagnant)."""
