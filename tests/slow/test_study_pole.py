@@ -48,8 +48,7 @@ MEAN_TOLERANCE = 2.0  # issue 4 acceptance: mean evaluations <= 2 x the publishe
 # Representative (departs from the paper's random member, sec. 3.3, from memory): each
 # species is represented by its previous champion, as the authors' setup is recalled to do
 # (MEMORY-medium). Runs 0-13 with a random member: 9 of 14 solved within 1,000,000
-# evaluations, about 5 of them within 100,000; with the champion 7 of 14 within 100,000,
-# and about five times less time per generation (fewer, larger species).
+# evaluations, 5 of them within 100,000; with the champion 7 of 14 within 100,000.
 DPNV_FREE_PARAMETERS: dict[str, Any] = {
     "weight_init_range": 1.0,
     "weight_perturb_power": 1.0,
