@@ -59,7 +59,14 @@ class RunSpec:
 
 @dataclass
 class GenerationLog:
-    """One generation: fitness of its best and mean candidate, evaluations so far, best size."""
+    """One generation: fitness of its best and mean candidate, evaluations so far, best size.
+
+    ``stats`` are the evolver's own figures (its ``stats()``); ``champion_test`` holds the
+    details of the success test run on the generation's best candidate (for the pole tasks
+    the steps it balanced and, when it reached the horizon, its generalization score;
+    empty when the task reports none), so a run that never solved shows how close its
+    champions came.
+    """
 
     generation: int
     evaluations: int
@@ -68,6 +75,7 @@ class GenerationLog:
     best_hidden: int
     best_connections: int
     stats: dict[str, float] = field(default_factory=dict)
+    champion_test: dict[str, Any] = field(default_factory=dict)
 
 
 @dataclass
@@ -254,6 +262,7 @@ def run_one(spec: RunSpec) -> RunRecord:
                     best_hidden=champion.hidden_nodes,
                     best_connections=champion.enabled_connections,
                     stats=stats,
+                    champion_test=dict(check.details),
                 )
             )
             if check.solved:

@@ -5,6 +5,11 @@ Tables: ``meta`` (schema version), ``campaigns`` (seed and plan of each campaign
 filter on) and ``generations`` (the per-generation log). A run is written whole or not at
 all, so a store left by a killed process opens cleanly with every finished run in it, and
 running the same campaign again skips the runs whose key is already stored.
+
+Schema versions: 1 had no ``champion_test`` column in ``generations``. A version-1 store is
+read as it is (its generations have an empty ``champion_test``) and is upgraded to
+version 2 inside the transaction of the first run written to it, so an upgrade that fails
+leaves the store as it was.
 """
 
 from __future__ import annotations
@@ -19,7 +24,8 @@ from typing import Any
 from .errors import StoreError
 from .runner import GenerationLog, RunRecord
 
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
+READABLE_VERSIONS = ("1", "2")
 DEFAULT_PATH = Path("results") / "neuroyard.db"
 
 _SCHEMA = """
@@ -54,6 +60,7 @@ CREATE TABLE IF NOT EXISTS generations (
     best_hidden INTEGER NOT NULL,
     best_connections INTEGER NOT NULL,
     stats TEXT NOT NULL,
+    champion_test TEXT NOT NULL DEFAULT '{}',
     PRIMARY KEY (run_id, generation)
 );
 """
@@ -95,15 +102,28 @@ class ResultStore:
                     "INSERT INTO meta(key, value) VALUES ('schema_version', ?)",
                     (str(SCHEMA_VERSION),),
                 )
+            self.version = SCHEMA_VERSION
             return
         if "meta" not in tables:
             raise StoreError(f"results store {self.path}: a SQLite file, but not a neuroyard store")
         row = self.db.execute("SELECT value FROM meta WHERE key='schema_version'").fetchone()
-        if row is None or row[0] != str(SCHEMA_VERSION):
+        if row is None or row[0] not in READABLE_VERSIONS:
             found = row[0] if row else "none"
             raise StoreError(
-                f"results store {self.path}: schema version {found}, this neuroyard reads {SCHEMA_VERSION}"
+                f"results store {self.path}: schema version {found}, this neuroyard reads "
+                f"{', '.join(READABLE_VERSIONS)}"
             )
+        self.version = int(row[0])
+
+    def _upgrade(self) -> None:
+        """Bring a version-1 store to the current schema (call inside a transaction)."""
+        # the UPDATE opens the transaction, so the ALTER below is rolled back with it
+        self.db.execute(
+            "UPDATE meta SET value=? WHERE key='schema_version'", (str(SCHEMA_VERSION),)
+        )
+        self.db.execute(
+            "ALTER TABLE generations ADD COLUMN champion_test TEXT NOT NULL DEFAULT '{}'"
+        )
 
     def __enter__(self) -> ResultStore:
         return self
@@ -133,6 +153,8 @@ class ResultStore:
         doc = record.to_dict()
         log = doc.pop("log")
         with self.db:
+            if self.version < SCHEMA_VERSION:
+                self._upgrade()
             cur = self.db.execute(
                 "INSERT INTO runs(run_key, campaign_id, evolver, config_hash, task, run_index, status,"
                 " evaluations, generations, record) VALUES (?,?,?,?,?,?,?,?,?,?)",
@@ -150,7 +172,7 @@ class ResultStore:
                 ),
             )
             self.db.executemany(
-                "INSERT INTO generations VALUES (?,?,?,?,?,?,?,?)",
+                "INSERT INTO generations VALUES (?,?,?,?,?,?,?,?,?)",
                 [
                     (
                         cur.lastrowid,
@@ -161,10 +183,12 @@ class ResultStore:
                         g["best_hidden"],
                         g["best_connections"],
                         json.dumps(g["stats"], sort_keys=True),
+                        json.dumps(g["champion_test"], sort_keys=True),
                     )
                     for g in log
                 ],
             )
+        self.version = SCHEMA_VERSION  # reached only when the transaction committed
 
     def records(self, with_log: bool = True) -> Iterator[RunRecord]:
         """Every stored run, in a stable order (evolver, task, run index)."""
@@ -177,12 +201,14 @@ class ResultStore:
             yield RunRecord.from_dict(doc)
 
     def _log(self, run_id: int) -> list[dict[str, Any]]:
+        champion_test = "champion_test" if self.version >= 2 else "'{}'"
         rows = self.db.execute(
             "SELECT generation, evaluations, best_fitness, mean_fitness, best_hidden,"
-            " best_connections, stats FROM generations WHERE run_id=? ORDER BY generation",
+            f" best_connections, stats, {champion_test} FROM generations"
+            " WHERE run_id=? ORDER BY generation",
             (run_id,),
         ).fetchall()
         return [
-            asdict(GenerationLog(g, e, bf, mf, bh, bc, json.loads(st)))
-            for g, e, bf, mf, bh, bc, st in rows
+            asdict(GenerationLog(g, e, bf, mf, bh, bc, json.loads(st), json.loads(ct)))
+            for g, e, bf, mf, bh, bc, st, ct in rows
         ]

@@ -26,3 +26,6 @@ def test_neat_solves_single_pole_with_velocities_in_three_short_runs() -> None:
         assert record.solved, (run, record.status, record.failure, record.best_fitness)
         assert record.success_details["balanced_steps"] == 100_000
         assert record.task_settings["substeps"] == 2  # the settings are recorded
+        # each generation logs how its champion did in the success test
+        assert all("balanced_steps" in g.champion_test for g in record.log)
+        assert record.log[-1].champion_test == record.success_details

@@ -108,3 +108,52 @@ def test_bad_store_files_give_clear_errors(tmp_path):
         ResultStore(tmp_path)
     # the failed opens changed nothing
     assert junk.read_text().startswith("this is not a database")
+
+
+def make_version_1(path):
+    """Turn a current store into the version-1 layout (no champion_test column)."""
+    db = sqlite3.connect(path)
+    db.execute("ALTER TABLE generations DROP COLUMN champion_test")
+    db.execute("UPDATE meta SET value='1' WHERE key='schema_version'")
+    db.commit()
+    db.close()
+
+
+def test_a_version_1_store_is_read_and_upgraded_by_the_first_write(tmp_path):
+    path = tmp_path / "v1.db"
+    with ResultStore(path) as store:
+        execute(plan(runs=2), store, progress=False)
+        before = [r.to_dict() for r in store.records()]
+    make_version_1(path)
+    with ResultStore(path, create=False) as store:
+        old = [r.to_dict() for r in store.records()]
+    assert store.version == 1
+    # version 1 logged no champion tests; everything else reads back unchanged
+    assert all(g["champion_test"] == {} for r in old for g in r["log"])
+    assert old == [{**r, "log": [{**g, "champion_test": {}} for g in r["log"]]} for r in before]
+    with ResultStore(path) as store:
+        assert execute(plan(runs=3), store, progress=False) == (1, 2)
+        assert store.version == 2
+        after = [r.to_dict() for r in store.records()]
+    assert after[:2] == old  # the upgrade kept the old runs as they were
+    assert len(after) == 3 and len(after[2]["log"]) == after[2]["generations"]
+    version = sqlite3.connect(path).execute("SELECT value FROM meta").fetchone()[0]
+    assert version == "2"
+
+
+def test_a_failed_upgrade_leaves_the_version_1_store_as_it_was(tmp_path):
+    path = tmp_path / "v1.db"
+    with ResultStore(path) as store:
+        execute(plan(runs=1), store, progress=False)
+    make_version_1(path)
+    with ResultStore(path) as store:
+        record = next(store.records())
+        (key,) = store.finished_keys()
+        # the same run key again: the insert fails after the upgrade statements ran
+        with pytest.raises(sqlite3.IntegrityError):
+            store.save(key, 1, record)
+        assert store.version == 1
+    with ResultStore(path) as store:
+        assert store.version == 1 and len(list(store.records())) == 1
+    columns = [c[1] for c in sqlite3.connect(path).execute("PRAGMA table_info(generations)")]
+    assert "champion_test" not in columns
