@@ -25,7 +25,7 @@ from .errors import StoreError
 from .runner import GenerationLog, RunRecord
 
 SCHEMA_VERSION = 2
-READABLE_VERSIONS = ("1", "2")
+READABLE_VERSIONS = tuple(str(v) for v in range(1, SCHEMA_VERSION + 1))  # older ones upgrade
 DEFAULT_PATH = Path("results") / "neuroyard.db"
 
 _SCHEMA = """
