@@ -5,6 +5,13 @@ figures (from ``reference/``) are shown next to the measured value of the same m
 with the ratio measured/published, the figure's source and provenance, and whether the
 figure is comparable: measured under the same protocol settings (start angle, population
 size, ...). Figures recalled from memory are marked as such and are information only.
+
+Where the paper gives what a test needs, a comparable figure also gets a two-sided p-value
+for "the measured runs and the published runs come from the same distribution": Welch's
+t-test for a mean the paper reports with its standard deviation, run count and failures
+(the mean is over solved runs on both sides), Fisher's exact test for failures and success
+rates the paper reports with its run count. A small p says the difference is unlikely to be
+chance; a large p says only that these runs cannot tell the two apart.
 """
 
 from __future__ import annotations
@@ -20,7 +27,7 @@ from tabulate import tabulate
 from neuroyard.reference.published import figures_for
 
 from .runner import RunRecord
-from .stats import GroupSummary, summarize
+from .stats import GroupSummary, fisher_p_value, summarize, welch_p_value
 
 FORMATS = ("text", "json", "markdown")
 # Metrics that describe the experiment (sample size, population) rather than its outcome:
@@ -42,6 +49,8 @@ class Comparison:
     from_memory: bool
     comparable: bool
     mismatches: tuple[str, ...]
+    p_value: float | None = None
+    test: str = ""
 
 
 @dataclass(frozen=True)
@@ -80,6 +89,26 @@ def _measured(metric: str, s: GroupSummary, settings: dict[str, Any]) -> float |
     return float(value) if value is not None else None
 
 
+def _test(metric: str, published: dict[str, float], s: GroupSummary) -> tuple[float | None, str]:
+    """(p-value, test name) of measured against published for one metric; (None, "") when
+    the paper does not give what the test needs."""
+    runs = published.get("runs")
+    if runs is None:
+        return None, ""
+    if metric in ("failures", "success_rate"):
+        solved = runs - published["failures"] if metric == "failures" else published[metric] * runs
+        return fisher_p_value(s.solved, s.runs, round(solved), int(runs)), "Fisher exact"
+    sd_key = "sd_" + metric.removeprefix("mean_")
+    mean, sd = getattr(s, metric, None), getattr(s, sd_key, None)
+    if not metric.startswith("mean_") or sd_key not in published or "failures" not in published:
+        return None, ""
+    if mean is None or sd is None:
+        return None, ""
+    solved_published = int(runs - published["failures"])
+    p = welch_p_value(mean, sd, s.solved, published[metric], published[sd_key], solved_published)
+    return p, "Welch t" if p is not None else ""
+
+
 def _comparisons(records: Sequence[RunRecord], s: GroupSummary) -> tuple[Comparison, ...]:
     first = records[0]
     out = []
@@ -94,6 +123,7 @@ def _comparisons(records: Sequence[RunRecord], s: GroupSummary) -> tuple[Compari
                 if measured is not None and published and metric not in _SAMPLE_METRICS
                 else None
             )
+            p_value, test = _test(metric, dict(fig.values), s) if not mismatches else (None, "")
             out.append(
                 Comparison(
                     method=fig.method,
@@ -106,6 +136,8 @@ def _comparisons(records: Sequence[RunRecord], s: GroupSummary) -> tuple[Compari
                     from_memory=fig.from_memory,
                     comparable=not mismatches,
                     mismatches=mismatches,
+                    p_value=p_value,
+                    test=test,
                 )
             )
     return tuple(out)
@@ -196,6 +228,7 @@ def _published_table(rows: Sequence[ReportRow], fmt: str) -> str:
                     _num(c.measured, 2),
                     _num(c.published, 2),
                     _num(c.ratio, 2) if c.comparable else "-",
+                    f"{c.p_value:.2g} ({c.test})" if c.p_value is not None else "-",
                     c.provenance + (" (from memory)" if c.from_memory else ""),
                     "yes" if c.comparable else "no: " + "; ".join(c.mismatches),
                     c.source,
@@ -211,6 +244,7 @@ def _published_table(rows: Sequence[ReportRow], fmt: str) -> str:
         "measured",
         "published",
         "ratio",
+        "p (test)",
         "provenance",
         "comparable",
         "source",
@@ -253,7 +287,10 @@ def render(rows: Sequence[ReportRow], fmt: str = "text") -> str:
     parts += ["", f"### {title}" if fmt == "markdown" else title + ":", *_settings_lines(rows, fmt)]
     notes = (
         "Evaluations, generations and sizes are over solved runs; success rate and ERT count "
-        "every run (ERT = all evaluations / solved runs)."
+        "every run (ERT = all evaluations / solved runs). p: two-sided p-value that the "
+        "measured and the published runs come from the same distribution (Welch's t-test on "
+        "the mean, Fisher's exact test on success counts), where the paper gives the run "
+        "count and spread the test needs."
     )
     parts += ["", notes]
     return "\n".join(parts)

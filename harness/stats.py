@@ -3,7 +3,10 @@
 Conventions: success rate over all runs (failed and unsolved runs count as not solved)
 with a 95% Wilson score interval; evaluations, generations and network size to solve are
 taken over solved runs only; ERT (expected running time) = all evaluations spent, solved
-or not, divided by the number of solved runs (infinite when none solved).
+or not, divided by the number of solved runs (infinite when none solved). Standard
+deviations use the n - 1 divisor. Two groups (a measurement and a published figure, or two
+variants) are compared with two-sided tests: Welch's t-test for means, Fisher's exact test
+for success counts.
 """
 
 from __future__ import annotations
@@ -13,7 +16,7 @@ import statistics
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from scipy.stats import binomtest
+from scipy.stats import binomtest, fisher_exact, ttest_ind_from_stats
 
 from .runner import RunRecord
 
@@ -24,6 +27,26 @@ def wilson_interval(successes: int, trials: int, confidence: float = 0.95) -> tu
         return (0.0, 1.0)
     ci = binomtest(successes, trials).proportion_ci(confidence_level=confidence, method="wilson")
     return (float(ci.low), float(ci.high))
+
+
+def welch_p_value(
+    mean_a: float, sd_a: float, n_a: int, mean_b: float, sd_b: float, n_b: int
+) -> float | None:
+    """Two-sided p-value of Welch's t-test that two samples, each given by its mean, standard
+    deviation (n - 1 divisor) and size, come from populations with the same mean
+    (scipy.stats.ttest_ind_from_stats with unequal variances). ``None`` when a sample has
+    fewer than two members or both deviations are zero (the test is undefined)."""
+    if n_a < 2 or n_b < 2 or (sd_a == 0.0 and sd_b == 0.0):
+        return None
+    result = ttest_ind_from_stats(mean_a, sd_a, n_a, mean_b, sd_b, n_b, equal_var=False)
+    return float(result.pvalue)
+
+
+def fisher_p_value(successes_a: int, trials_a: int, successes_b: int, trials_b: int) -> float:
+    """Two-sided p-value of Fisher's exact test that two success proportions are equal
+    (scipy.stats.fisher_exact on the 2 x 2 table of successes and failures)."""
+    table = [[successes_a, trials_a - successes_a], [successes_b, trials_b - successes_b]]
+    return float(fisher_exact(table).pvalue)
 
 
 def expected_running_time(evaluations: Sequence[int], solved: Sequence[bool]) -> float:

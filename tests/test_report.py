@@ -5,11 +5,18 @@ from __future__ import annotations
 import math
 
 import pytest
-from scipy.stats import binomtest
+from scipy.stats import binomtest, ttest_ind
+from scipy.stats import t as student_t
 
 from neuroyard.harness import report
 from neuroyard.harness.runner import RunRecord
-from neuroyard.harness.stats import expected_running_time, summarize, wilson_interval
+from neuroyard.harness.stats import (
+    expected_running_time,
+    fisher_p_value,
+    summarize,
+    welch_p_value,
+    wilson_interval,
+)
 from neuroyard.reference.published import figures_for
 
 
@@ -82,3 +89,64 @@ def test_figure_under_another_protocol_is_not_comparable():
     # the text report prints no ratio for a figure that is not comparable
     line = next(x for x in report.render(rows, "text").splitlines() if "mean_evaluations" in x)
     assert "no: evolver.population_size=300" in line
+
+
+def _sample_with(mean: float, sd: float, n: int) -> list[float]:
+    """n numbers with exactly the given mean and sample sd (a stand-in for the runs behind a
+    published mean +- sd; not data)."""
+    z = [math.sin(1.7 * k + 0.3) for k in range(n)]
+    mz = math.fsum(z) / n
+    sz = math.sqrt(math.fsum((x - mz) ** 2 for x in z) / (n - 1))
+    return [mean + sd * (x - mz) / sz for x in z]
+
+
+def test_welch_p_value_from_summaries_equals_scipy_on_the_raw_samples():
+    # Welch (1947): the unequal-variance t-test; a test from (mean, sd, n) must equal the
+    # test on raw samples with those summaries (scipy.stats.ttest_ind, equal_var=False).
+    a, b = _sample_with(5721.0, 3288.0, 100), _sample_with(4755.0, 2553.0, 100)
+    raw = ttest_ind(a, b, equal_var=False).pvalue
+    assert welch_p_value(5721.0, 3288.0, 100, 4755.0, 2553.0, 100) == pytest.approx(raw, rel=1e-9)
+    # the textbook formula: t = diff / sqrt(s1^2/n1 + s2^2/n2), Welch-Satterthwaite df
+    v1, v2 = 3288.0**2 / 100, 2553.0**2 / 100
+    df = (v1 + v2) ** 2 / (v1**2 / 99 + v2**2 / 99)
+    t = (5721.0 - 4755.0) / math.sqrt(v1 + v2)
+    assert welch_p_value(5721.0, 3288.0, 100, 4755.0, 2553.0, 100) == pytest.approx(
+        2 * student_t.sf(t, df), rel=1e-9
+    )
+    assert welch_p_value(1.0, 0.0, 5, 1.0, 0.0, 5) is None  # no spread: undefined
+    assert welch_p_value(1.0, 1.0, 1, 2.0, 1.0, 5) is None  # one run: no sd
+
+
+def test_fisher_p_value_matches_the_hypergeometric_sum():
+    # Fisher's exact test, two-sided: sum of the hypergeometric probabilities of every table
+    # with the same margins that is no more likely than the observed one. 90 of 100 solved
+    # against 100 of 100: only the tables with 0 or 10 failures in the first row qualify.
+    hyper = [math.comb(10, k) * math.comb(190, 100 - k) / math.comb(200, 100) for k in range(11)]
+    expected = sum(p for p in hyper if p <= hyper[10] * (1 + 1e-7))
+    assert fisher_p_value(90, 100, 100, 100) == pytest.approx(expected, rel=1e-9)
+    assert fisher_p_value(100, 100, 100, 100) == pytest.approx(1.0)
+
+
+def test_report_tests_measured_against_published_where_the_paper_allows():
+    fig = figures_for("xor-v1", "NEAT")[0].values  # 100 runs, 0 failures, mean and sd given
+    evaluations = [3000, 4500, 6000, 7500]
+    rows = report.build([record(i, True, e) for i, e in enumerate(evaluations)])
+    by_metric = {c.metric: c for c in rows[0].comparisons}
+    mean = by_metric["mean_evaluations"]
+    expected = ttest_ind(
+        [float(e) for e in evaluations],
+        _sample_with(fig["mean_evaluations"], fig["sd_evaluations"], int(fig["runs"])),
+        equal_var=False,
+    ).pvalue
+    assert mean.test == "Welch t" and mean.p_value == pytest.approx(expected, rel=1e-9)
+    failures = by_metric["failures"]  # 4 of 4 solved against 100 of 100: no difference
+    assert failures.test == "Fisher exact" and failures.p_value == pytest.approx(1.0)
+    # no sd published for generations or connections: no test
+    assert by_metric["mean_generations"].p_value is None
+    assert by_metric["mean_connections"].p_value is None
+    assert "(Welch t)" in report.render(rows, "text")
+    # a figure under another protocol is not tested either
+    other = report.build(
+        [record(0, True, 3000, population=300), record(1, True, 4000, population=300)]
+    )
+    assert all(c.p_value is None for c in other[0].comparisons)
