@@ -99,9 +99,9 @@ def _test(metric: str, published: dict[str, float], s: GroupSummary) -> tuple[fl
         solved = runs - published["failures"] if metric == "failures" else published[metric] * runs
         return fisher_p_value(s.solved, s.runs, round(solved), int(runs)), "Fisher exact"
     sd_key = "sd_" + metric.removeprefix("mean_")
-    mean, sd = getattr(s, metric, None), getattr(s, sd_key, None)
     if not metric.startswith("mean_") or sd_key not in published or "failures" not in published:
         return None, ""
+    mean, sd = getattr(s, metric, None), getattr(s, sd_key, None)
     if mean is None or sd is None:
         return None, ""
     solved_published = int(runs - published["failures"])
