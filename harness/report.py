@@ -7,7 +7,7 @@ figure is comparable: measured under the same protocol settings (start angle, po
 size, ...). Figures recalled from memory are marked as such and are information only.
 
 Where the paper gives what a test needs, a comparable figure also gets a two-sided p-value
-for "the measured runs and the published runs come from the same distribution": Welch's
+for "the measured and the published runs have the same mean (or success rate)": Welch's
 t-test for a mean the paper reports with its standard deviation, run count and failures
 (the mean is over solved runs on both sides), Fisher's exact test for failures and success
 rates the paper reports with its run count. A small p says the difference is unlikely to be
@@ -288,8 +288,8 @@ def render(rows: Sequence[ReportRow], fmt: str = "text") -> str:
     notes = (
         "Evaluations, generations and sizes are over solved runs; success rate and ERT count "
         "every run (ERT = all evaluations / solved runs). p: two-sided p-value that the "
-        "measured and the published runs come from the same distribution (Welch's t-test on "
-        "the mean, Fisher's exact test on success counts), where the paper gives the run "
+        "measured and the published runs have the same mean (Welch's t-test) or the same "
+        "success rate (Fisher's exact test), where the paper gives the run "
         "count and spread the test needs."
     )
     parts += ["", notes]
