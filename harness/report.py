@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import json
 import math
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
@@ -89,7 +89,7 @@ def _measured(metric: str, s: GroupSummary, settings: dict[str, Any]) -> float |
     return float(value) if value is not None else None
 
 
-def _test(metric: str, published: dict[str, float], s: GroupSummary) -> tuple[float | None, str]:
+def _test(metric: str, published: Mapping[str, float], s: GroupSummary) -> tuple[float | None, str]:
     """(p-value, test name) of measured against published for one metric; (None, "") when
     the paper does not give what the test needs."""
     runs = published.get("runs")
@@ -123,7 +123,7 @@ def _comparisons(records: Sequence[RunRecord], s: GroupSummary) -> tuple[Compari
                 if measured is not None and published and metric not in _SAMPLE_METRICS
                 else None
             )
-            p_value, test = _test(metric, dict(fig.values), s) if not mismatches else (None, "")
+            p_value, test = _test(metric, fig.values, s) if not mismatches else (None, "")
             out.append(
                 Comparison(
                     method=fig.method,
