@@ -13,6 +13,7 @@ all inside one ``@njit`` function, so an episode is one call from Python.
 
 from __future__ import annotations
 
+import hashlib
 from typing import NamedTuple
 
 import numba
@@ -36,6 +37,18 @@ class CompiledNetwork(NamedTuple):
     in_src: np.ndarray  # uint32[n_edges], slot of each source
     in_w: np.ndarray  # float64[n_edges]
     out_idx: np.ndarray  # uint32[n_outputs], slots of the output nodes in list order
+
+
+def fingerprint(net: CompiledNetwork) -> bytes:
+    """A 16-byte digest of everything that determines what ``net`` computes.
+
+    Two compilations of the same network give the same digest; networks with different
+    weights, activations or wiring give different ones (up to hash collisions)."""
+    digest = hashlib.blake2b(digest_size=16)
+    digest.update(repr((net.recurrent, net.n_inputs, net.n_bias, net.n_nodes)).encode())
+    for array in (net.act, net.bias, net.gain, net.in_ptr, net.in_src, net.in_w, net.out_idx):
+        digest.update(np.ascontiguousarray(array).tobytes())
+    return digest.digest()
 
 
 def compile_network(

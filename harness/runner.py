@@ -2,9 +2,19 @@
 
 The loop: ``ask`` a batch, validate and compile every network, evaluate them (each
 network = one counted evaluation; the batch is cut so that no evaluation goes past the
-budget), run the task's success test on the batch's best network (counted apart), log the
-generation, ``tell`` the results. The run ends when the success test passes (solved), the
-budget is spent (unsolved), or the evolver misbehaves (failed, with the reason).
+budget), run the task's success test on the batch's fittest network that has not been
+tested before in this run (counted apart), log the generation, ``tell`` the results. The
+run ends when the success test passes (solved), the budget is spent (unsolved), or the
+evolver misbehaves (failed, with the reason).
+
+**Which network is success-tested.** Each generation one network is tested: the fittest
+one whose :func:`~.compiled.fingerprint` has not been tested before in the run, usually the
+generation's best. Success tests are deterministic, so testing an identical network again
+(an elite copied unchanged from generation to generation) can only repeat a failure; the
+test goes to the next-fittest network instead. This follows the NEAT authors' double-pole
+setup as recalled, which tests the champion of the fittest species not tested since it last
+improved (from memory, MEMORY-medium; LITERATURE.md 2.6 only says "the best network of a
+generation"). A generation in which every network was tested before runs no test.
 
 Timing (``RunRecord.timing``, seconds of wall time): ``evolver`` inside the evolver's calls,
 ``kernel_load`` loading (or compiling) the task's numba kernels, which happens once per
@@ -23,7 +33,8 @@ from dataclasses import asdict, dataclass, field
 from typing import Any
 
 from . import provenance
-from .batch import compile_batch
+from .batch import CompiledBatch, compile_batch
+from .compiled import fingerprint
 from .errors import NetworkError
 from .evolver import EvolverSpec
 from .network import Network, fully_connected, to_dict
@@ -62,10 +73,11 @@ class GenerationLog:
     """One generation: fitness of its best and mean candidate, evaluations so far, best size.
 
     ``stats`` are the evolver's own figures (its ``stats()``); ``champion_test`` holds the
-    details of the success test run on the generation's best candidate (for the pole tasks
-    the steps it balanced and, when it reached the horizon, its generalization score;
-    empty when the task reports none), so a run that never solved shows how close its
-    champions came.
+    generation's success test: ``rank``, the tested network's place in the generation's
+    fitness order (0 = the fittest; see the module docstring), and the task's details (for
+    the pole tasks the steps it balanced and, when it reached the horizon, its
+    generalization score); empty when no network was tested. So a run that never solved
+    shows how close its champions came.
     """
 
     generation: int
@@ -83,7 +95,8 @@ class RunRecord:
     """The outcome of a run. ``evaluations`` excludes success tests (``success_evaluations``).
 
     ``best_network`` is the network that passed the success test, or the fittest one
-    evaluated when the run did not solve; ``hidden_nodes``/``connections`` are its size.
+    evaluated when the run did not solve; ``hidden_nodes``/``connections`` are its size,
+    ``success_details`` the details of its success test (with its ``rank``).
     ``evolver_settings`` is the evolver's effective configuration (defaults included) when
     it offers ``settings()``. ``timing`` holds wall, evolver and harness seconds.
     """
@@ -219,6 +232,7 @@ def run_one(spec: RunSpec) -> RunRecord:
     )
     clock = _Clock()
     best_fitness = -math.inf
+    tested: set[bytes] = set()  # fingerprints of the networks success-tested in this run
     try:
         evolver = clock.call("building the evolver", spec.evolver.build)
         clock.call("start()", evolver.start, task.problem(budget), seed)
@@ -242,16 +256,22 @@ def run_one(spec: RunSpec) -> RunRecord:
             record.generations += 1
             fitness = [r.fitness for r in results]
             top = max(range(len(fitness)), key=fitness.__getitem__)
-            check = task.success_test(compiled.network(top), results[top])
-            record.success_evaluations += check.evaluations
-            champion = batch[top]
-            if check.solved or fitness[top] > best_fitness:
+            solved, details, pick = False, {}, None
+            candidate = _fittest_untested(compiled, fitness, tested)
+            if candidate is not None:
+                pick, rank = candidate
+                check = task.success_test(compiled.network(pick), results[pick])
+                record.success_evaluations += check.evaluations
+                solved, details = check.solved, {"rank": rank, **check.details}
+                if solved:
+                    top = pick  # the solution is the network that passed
+            if solved or fitness[top] > best_fitness:
                 best_fitness = fitness[top]
                 record.best_fitness = fitness[top]
-                record.best_network = to_dict(champion)
-                record.hidden_nodes = champion.hidden_nodes
-                record.connections = champion.enabled_connections
-                record.success_details = dict(check.details)
+                record.best_network = to_dict(batch[top])
+                record.hidden_nodes = batch[top].hidden_nodes
+                record.connections = batch[top].enabled_connections
+                record.success_details = details if pick == top else {}
             stats = _stats(evolver, clock)
             record.log.append(
                 GenerationLog(
@@ -259,13 +279,13 @@ def run_one(spec: RunSpec) -> RunRecord:
                     evaluations=record.evaluations,
                     best_fitness=fitness[top],
                     mean_fitness=math.fsum(fitness) / len(fitness),
-                    best_hidden=champion.hidden_nodes,
-                    best_connections=champion.enabled_connections,
+                    best_hidden=batch[top].hidden_nodes,
+                    best_connections=batch[top].enabled_connections,
                     stats=stats,
-                    champion_test=dict(check.details),
+                    champion_test=details,
                 )
             )
-            if check.solved:
+            if solved:
                 record.status = SOLVED
                 break
             if record.evaluations < budget:
@@ -281,6 +301,20 @@ def run_one(spec: RunSpec) -> RunRecord:
         "harness": wall - clock.seconds - kernel_load,
     }
     return record
+
+
+def _fittest_untested(
+    batch: CompiledBatch, fitness: list[float], tested: set[bytes]
+) -> tuple[int, int] | None:
+    """(index, rank) of the fittest network of ``batch`` whose fingerprint is not in
+    ``tested``, and add it there; rank 0 is the batch's fittest, ties go to the lower index.
+    None when every network of the batch was tested before."""
+    for rank, i in enumerate(sorted(range(len(fitness)), key=lambda k: -fitness[k])):
+        key = fingerprint(batch.network(i))
+        if key not in tested:
+            tested.add(key)
+            return i, rank
+    return None
 
 
 def _settings(evolver: Any, clock: _Clock) -> dict[str, Any]:

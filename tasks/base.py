@@ -6,8 +6,10 @@ The harness calls:
 
 * ``evaluate(net) -> Evaluation``: the fitness of one compiled network; one call is one
   counted evaluation.
-* ``success_test(net, evaluation) -> SuccessCheck``: the task's success criterion on a
-  generation's best network; its cost (episodes run) is counted apart from evaluations.
+* ``success_test(net, evaluation) -> SuccessCheck``: the task's success criterion on one
+  network of a generation (the fittest one not tested before in the run); its cost
+  (episodes run) is counted apart from evaluations. It must be deterministic: the harness
+  never tests an identical network twice in a run.
 
 Any randomness of the task itself comes from the ``seed`` it is built with; the harness
 derives that seed from (task, run index), so every evolver meets the same task instances.

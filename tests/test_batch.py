@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from neuroyard.harness.batch import compile_batch
-from neuroyard.harness.compiled import run_sequence
+from neuroyard.harness.compiled import fingerprint, run_sequence
 from neuroyard.harness.errors import NetworkError
 from neuroyard.harness.network import Connection, Network, Node, check
 from neuroyard.harness.reference_activation import ReferenceNet
@@ -127,3 +127,32 @@ def test_integer_types_and_id_range_agree_between_check_and_compiler():
     huge = dataclasses.replace(base, nodes=(dataclasses.replace(first, id=2**70), *base.nodes[1:]))
     with pytest.raises(NetworkError, match=r"id must be an integer in \[-2\*\*63, 2\*\*63\)"):
         compile_batch([huge])
+
+
+def test_fingerprint_tells_networks_apart_and_recognises_copies():
+    rng = np.random.default_rng(5)
+    nets = [random_network(rng, recurrent=bool(k % 2)) for k in range(20)]
+    batch = compile_batch(nets + nets)  # every network twice, as an unchanged elite
+    prints = [fingerprint(batch.network(i)) for i in range(batch.size)]
+    assert prints[:20] == prints[20:]
+    assert len(set(prints[:20])) == len(set(nets))
+    # a change of one enabled weight or of the mode is a different network; a change of a
+    # disabled weight is not (it computes the same)
+    first = nets[0]
+    links = list(first.connections)
+    on = next(k for k, c in enumerate(links) if c.enabled)
+    off = next(k for k, c in enumerate(links) if not c.enabled)
+    inert = links.copy()
+    inert[off] = dataclasses.replace(links[off], weight=links[off].weight + 1.0)
+    same = dataclasses.replace(first, connections=tuple(inert))
+    assert fingerprint(compile_batch([same]).network(0)) == prints[0]
+    moved = links.copy()
+    moved[on] = dataclasses.replace(links[on], weight=links[on].weight + 1e-9)
+    variants = [
+        dataclasses.replace(first, connections=tuple(moved)),
+        dataclasses.replace(
+            first, mode="recurrent" if first.mode == "feedforward" else "feedforward"
+        ),
+    ]
+    for variant in variants:
+        assert fingerprint(compile_batch([variant]).network(0)) != prints[0]

@@ -9,6 +9,7 @@ import pytest
 from neuroyard.harness import seeds
 from neuroyard.harness.evolver import EvolverSpec
 from neuroyard.harness.runner import RunSpec, load_kernels, run_one
+from neuroyard.tasks.base import SuccessCheck
 from neuroyard.tasks.logic import Xor
 
 HERE = Path(__file__).parent
@@ -54,8 +55,41 @@ def test_budget_is_exact_and_every_evaluation_counted(counted_xor):
     assert record.evaluations == 20 == counted_xor["evaluate"]
     assert record.generations == 3
     assert [g.evaluations for g in record.log] == [7, 14, 20]
-    # one success test per generation on its best candidate, counted apart
+    # one success test per generation, counted apart; the 7 networks tie on fitness and come
+    # back unchanged, so each generation tests the next one not tested yet
     assert record.success_evaluations == 3 == counted_xor["success"]
+    assert [g.champion_test["rank"] for g in record.log] == [0, 1, 2]
+
+
+def test_a_network_is_success_tested_at_most_once_per_run(counted_xor):
+    # two networks asked again and again: generations 0 and 1 test them, generation 2 none
+    record = run_one(spec("plugins_for_tests:Constant", budget=6, batch=2))
+    assert record.generations == 3
+    assert record.success_evaluations == 2 == counted_xor["success"]
+    assert record.log[2].champion_test == {}
+
+
+def test_the_solution_is_the_network_that_passed_even_below_the_fittest(monkeypatch):
+    # two networks asked again and again; the test fails the first network tested and
+    # passes any other. Generation 0 tests the fittest, generation 1 the other one, which
+    # passes: it is the recorded solution, with its rank
+    load_kernels("xor-v1", {})
+    tested: list[float] = []
+
+    def success(self, net, evaluation):
+        tested.append(float(net.in_w[0]))
+        return SuccessCheck(tested[-1] != tested[0], 1, {"weight": tested[-1]})
+
+    monkeypatch.setattr(Xor, "success_test", success)
+    record = run_one(spec("plugins_for_tests:Constant", budget=100, batch=2))
+    assert record.status == "solved" and record.generations == 2
+    assert len(tested) == 2 and tested[0] != tested[1]
+    assert [g.champion_test for g in record.log] == [
+        {"rank": 0, "weight": tested[0]},
+        {"rank": 1, "weight": tested[1]},
+    ]
+    assert record.best_network["connections"][0]["weight"] == tested[1]
+    assert record.success_details == {"rank": 1, "weight": tested[1]}
 
 
 def test_solved_run_stops_at_the_solving_generation(counted_xor):
