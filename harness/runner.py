@@ -263,15 +263,14 @@ def run_one(spec: RunSpec) -> RunRecord:
                 check = task.success_test(compiled.network(pick), results[pick])
                 record.success_evaluations += check.evaluations
                 solved, details = check.solved, {"rank": rank, **check.details}
-                if solved:
-                    top = pick  # the solution is the network that passed
             if solved or fitness[top] > best_fitness:
+                kept = pick if solved else top  # a solution is the network that passed
                 best_fitness = fitness[top]
-                record.best_fitness = fitness[top]
-                record.best_network = to_dict(batch[top])
-                record.hidden_nodes = batch[top].hidden_nodes
-                record.connections = batch[top].enabled_connections
-                record.success_details = details if pick == top else {}
+                record.best_fitness = fitness[kept]
+                record.best_network = to_dict(batch[kept])
+                record.hidden_nodes = batch[kept].hidden_nodes
+                record.connections = batch[kept].enabled_connections
+                record.success_details = details if pick == kept else {}
             stats = _stats(evolver, clock)
             record.log.append(
                 GenerationLog(
