@@ -47,7 +47,7 @@ def fingerprint(net: CompiledNetwork) -> bytes:
     digest = hashlib.blake2b(digest_size=16)
     digest.update(repr((net.recurrent, net.n_inputs, net.n_bias, net.n_nodes)).encode())
     for array in (net.act, net.bias, net.gain, net.in_ptr, net.in_src, net.in_w, net.out_idx):
-        digest.update(np.ascontiguousarray(array).tobytes())
+        digest.update(array.tobytes())  # C-order bytes, views included
     return digest.digest()
 
 

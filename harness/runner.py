@@ -255,9 +255,11 @@ def run_one(spec: RunSpec) -> RunRecord:
             record.evaluations += len(batch)
             record.generations += 1
             fitness = [r.fitness for r in results]
-            top = max(range(len(fitness)), key=fitness.__getitem__)
+            # fittest first, ties in batch order
+            ranking = sorted(range(len(fitness)), key=lambda k: -fitness[k])
+            top = ranking[0]
             solved, details, pick = False, {}, None
-            candidate = _fittest_untested(compiled, fitness, tested)
+            candidate = _fittest_untested(compiled, ranking, tested)
             if candidate is not None:
                 pick, rank = candidate
                 check = task.success_test(compiled.network(pick), results[pick])
@@ -303,12 +305,12 @@ def run_one(spec: RunSpec) -> RunRecord:
 
 
 def _fittest_untested(
-    batch: CompiledBatch, fitness: list[float], tested: set[bytes]
+    batch: CompiledBatch, ranking: list[int], tested: set[bytes]
 ) -> tuple[int, int] | None:
-    """(index, rank) of the fittest network of ``batch`` whose fingerprint is not in
-    ``tested``, and add it there; rank 0 is the batch's fittest, ties go to the lower index.
-    None when every network of the batch was tested before."""
-    for rank, i in enumerate(sorted(range(len(fitness)), key=lambda k: -fitness[k])):
+    """(index, rank) of the first network of ``ranking`` (batch indices, fittest first)
+    whose fingerprint is not in ``tested``, and add it there; None when every network of
+    the batch was tested before."""
+    for rank, i in enumerate(ranking):
         key = fingerprint(batch.network(i))
         if key not in tested:
             tested.add(key)
