@@ -62,6 +62,9 @@ class ReportRow:
     evolver_settings: dict[str, Any]
     summary: GroupSummary
     comparisons: tuple[Comparison, ...] = field(default=())
+    # The options given for these runs (``--config`` / ``--param``); every other evolver
+    # setting is the evolver's own default.
+    evolver_config: dict[str, Any] = field(default_factory=dict)
 
     def to_json(self) -> dict[str, Any]:
         s = self.summary
@@ -71,6 +74,7 @@ class ReportRow:
             "task": self.task,
             "task_settings": self.task_settings,
             "evolver_settings": self.evolver_settings,
+            "evolver_config": self.evolver_config,
         }
         row.update({k: v for k, v in asdict(s).items() if k != "success_ci"})
         row["success_ci_low"], row["success_ci_high"] = s.success_ci
@@ -161,6 +165,7 @@ def build(records: Iterable[RunRecord]) -> list[ReportRow]:
                 group[0].evolver_settings or group[0].config,
                 summary,
                 _comparisons(group, summary),
+                dict(group[0].config),
             )
         )
     return rows
@@ -253,19 +258,28 @@ def _published_table(rows: Sequence[ReportRow], fmt: str) -> str:
 
 
 def _settings_lines(rows: Sequence[ReportRow], fmt: str) -> list[str]:
-    """Every distinct task and evolver setting the rows were measured under."""
+    """Every distinct task and evolver setting the rows were measured under.
+
+    Evolver options given for the runs are listed apart from the evolver's defaults, so a
+    reader sees at once which settings were chosen away from them.
+    """
     bullet = "- " if fmt == "markdown" else "  "
     seen: dict[str, str] = {}
     for r in rows:
-        for label, settings in (
-            (f"task {r.task}", r.task_settings),
-            (f"evolver {r.evolver} [{r.config_hash[:6]}]", r.evolver_settings),
-        ):
-            text = (
-                ", ".join(f"{k}={_setting(v)}" for k, v in sorted(settings.items())) or "defaults"
-            )
-            seen.setdefault(f"{label}: {text}", "")
+        seen.setdefault(f"task {r.task}: {_joined(r.task_settings)}", "")
+        given = {k: r.evolver_settings.get(k, v) for k, v in r.evolver_config.items()}
+        defaults = {k: v for k, v in r.evolver_settings.items() if k not in given}
+        parts = [f"set for these runs: {_joined(given)}"] if given else []
+        if defaults:
+            parts.append(f"the evolver's defaults: {_joined(defaults)}")
+        elif not given:
+            parts.append("the evolver's defaults (it reports no settings)")
+        seen.setdefault(f"evolver {r.evolver} [{r.config_hash[:6]}]: {'; '.join(parts)}", "")
     return [bullet + line for line in seen]
+
+
+def _joined(settings: Mapping[str, Any]) -> str:
+    return ", ".join(f"{k}={_setting(v)}" for k, v in sorted(settings.items())) or "none"
 
 
 def _setting(value: Any) -> str:

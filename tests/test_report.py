@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import pytest
@@ -89,6 +90,27 @@ def test_figure_under_another_protocol_is_not_comparable():
     # the text report prints no ratio for a figure that is not comparable
     line = next(x for x in report.render(rows, "text").splitlines() if "mean_evaluations" in x)
     assert "no: evolver.population_size=300" in line
+
+
+def test_report_lists_the_options_given_apart_from_the_evolver_defaults():
+    given = record(0, True, 3000, population=300)
+    given = dataclasses.replace(
+        given,
+        config={"population_size": 300},
+        config_hash="0ddba1100000",
+        evolver_settings={"population_size": 300, "c3": 0.4},
+    )
+    rows = report.build([record(1, True, 3000), given])
+    lines = report.render(rows, "markdown").splitlines()
+    assert "- evolver neat [c0ffee]: the evolver's defaults: population_size=150" in lines
+    assert (
+        "- evolver neat [0ddba1]: set for these runs: population_size=300; "
+        "the evolver's defaults: c3=0.4"
+    ) in lines
+    assert {r.config_hash: r.evolver_config for r in rows} == {
+        "c0ffee000000": {},
+        "0ddba1100000": {"population_size": 300},
+    }
 
 
 def _sample_with(mean: float, sd: float, n: int) -> list[float]:
