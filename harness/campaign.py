@@ -1,24 +1,35 @@
 """A campaign: evolvers x tasks x run indices, executed run by run into a results store.
 
 Runs whose key is already in the store are skipped, so an interrupted campaign resumes
-where it stopped. Runs execute in this process (``workers=1``) or in a local process pool;
-either way only this process writes to the store, one transaction per finished run.
+where it stopped. Runs execute on supervised worker processes (:mod:`.supervisor`) or, for
+debugging, in this process; either way only this coordinator process writes to the store,
+one transaction per finished run. Several coordinators may run the same campaign on one
+store at once: they claim runs before starting them and so split the work.
 """
 
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import json
+import signal
+import sqlite3
+import time
 from collections.abc import Callable, Sequence
-from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
-from typing import Any
+from pathlib import Path
+from typing import Any, NamedTuple
 
 from tqdm import tqdm
 
+from . import crashlog
+from .errors import StoreError
 from .evolver import EvolverSpec
-from .runner import RunRecord, RunSpec, run_one
-from .store import ResultStore
+from .runner import RunRecord, RunSpec
+from .store import ResultStore, owner_id
+from .supervisor import InProcess, Limits, Supervisor
+
+WAIT_FOR_OTHERS = 1.0  # s between looks at runs that other coordinators are running
 
 
 @dataclass(frozen=True)
@@ -62,35 +73,91 @@ class CampaignPlan:
         return hashlib.sha256(text.encode()).hexdigest()[:16]
 
 
+class CampaignResult(NamedTuple):
+    """What :func:`execute` did: runs finished and stored by this process, runs already in
+    the store when it started, and the runs it could not finish because of a fault of the
+    harness itself (not stored: they run again when the campaign resumes), with the crash
+    log holding their tracebacks."""
+
+    done: int
+    skipped: int
+    internal_errors: int = 0
+    crash_log: Path | None = None
+
+
 def execute(
     plan: CampaignPlan,
     store: ResultStore,
     workers: int = 1,
     progress: bool = True,
     on_record: Callable[[RunRecord], None] | None = None,
-) -> tuple[int, int]:
-    """Run every run of ``plan`` not yet in ``store``; return (runs done now, runs skipped)."""
+    limits: Limits | None = None,
+    in_process: bool = False,
+) -> CampaignResult:
+    """Run every run of ``plan`` not yet in ``store`` (see module docstring).
+
+    Runs execute on ``workers`` supervised worker processes under ``limits``, or with
+    ``in_process`` in this process without limits. Each pending run is claimed in the
+    store before it starts, so other coordinators on the same store take other runs; when
+    only runs claimed elsewhere are left, this process waits for them (or for their claims
+    to expire and takes them over). A Ctrl-C (KeyboardInterrupt) ends the workers, keeps
+    every finished run, releases this process's claims and is raised again."""
     campaign_id = store.campaign(plan.seed, plan.describe(), plan.plan_hash)
-    done = store.finished_keys()
-    pending = [spec for spec in plan.expand() if spec.key not in done]
-    skipped = len(plan.expand()) - len(pending)
-    bar = tqdm(total=len(pending), unit="run", delay=3.0, disable=not progress or not pending)
-
-    def finish(spec: RunSpec, record: RunRecord) -> None:
-        store.save(spec.key, campaign_id, record)
-        bar.update(1)
-        if on_record is not None:
-            on_record(record)
-
+    by_key = {spec.key: spec for spec in plan.expand()}
+    finished = store.finished_keys()
+    remaining = [key for key in by_key if key not in finished]
+    result = {"done": 0, "skipped": len(by_key) - len(remaining), "errors": 0}
+    crash: list[Path | None] = []
+    owner = owner_id()
+    executor = InProcess(limits) if in_process else Supervisor(workers, limits)
+    running: set[str] = set()
+    bar = tqdm(total=len(remaining), unit="run", delay=3.0, disable=not progress or not remaining)
     try:
-        if workers <= 1 or len(pending) <= 1:
-            for spec in pending:
-                finish(spec, run_one(spec))
-        else:
-            with ProcessPoolExecutor(max_workers=workers) as pool:
-                futures = {pool.submit(run_one, spec): spec for spec in pending}
-                for future in as_completed(futures):
-                    finish(futures[future], future.result())
-    finally:
-        bar.close()
-    return len(pending), skipped
+        with store.keep_alive(owner):
+            while remaining or running:
+                claimed = store.claim(
+                    [k for k in remaining if k not in running],
+                    owner,
+                    executor.capacity - len(running),
+                )
+                for key in claimed:
+                    executor.submit(by_key[key])
+                    running.add(key)
+                if not running:  # what is left is claimed by others: wait for them
+                    finished = store.finished_keys()
+                    remaining = [k for k in remaining if k not in finished]
+                    if remaining:
+                        time.sleep(WAIT_FOR_OTHERS)
+                    continue
+                for item in executor.collect(timeout=1.0):
+                    key = item.spec.key
+                    running.discard(key)
+                    remaining.remove(key)
+                    if item.record is None:
+                        result["errors"] += 1
+                        crash.append(crashlog.write(item.error or "", f"run {key}"))
+                        store.release(owner, [key])
+                        continue
+                    if store.save(key, campaign_id, item.record):
+                        result["done"] += 1
+                    bar.update(1)
+                    if on_record is not None:
+                        on_record(item.record)
+    except KeyboardInterrupt:
+        previous = signal.signal(signal.SIGINT, signal.SIG_IGN)  # a second Ctrl-C: no traceback
+        try:
+            _shut_down(executor, store, owner, bar)
+        finally:
+            signal.signal(signal.SIGINT, previous)
+        raise
+    _shut_down(executor, store, owner, bar)
+    return CampaignResult(
+        result["done"], result["skipped"], result["errors"], next(iter(crash), None)
+    )
+
+
+def _shut_down(executor: Any, store: ResultStore, owner: str, bar: tqdm) -> None:
+    executor.close()
+    with contextlib.suppress(StoreError, sqlite3.Error):
+        store.release(owner)
+    bar.close()

@@ -1,6 +1,9 @@
 """The ``neuroyard`` command line. It parses arguments and calls the library; no logic here.
 
-Every error prints one line ``neuroyard: error: ...`` on stderr and exits with status 2.
+Exit status: 0 done; 2 an error the user can fix (bad option, file, task, evolver
+configuration, a store that cannot be written): one line ``neuroyard: error: ...`` on
+stderr; 3 an internal error (a fault of neuroyard itself): one line naming the crash log
+that holds the traceback; 130 interrupted by Ctrl-C (finished runs are kept).
 """
 
 from __future__ import annotations
@@ -9,18 +12,22 @@ import argparse
 import json
 import os
 import sys
+import traceback
 from collections.abc import Sequence
 from pathlib import Path
 from typing import Any, NoReturn
 
+from . import crashlog, jsonsafe
 from . import report as report_mod
 from .campaign import CampaignPlan, TaskChoice, execute
 from .errors import NeuroyardError
-from .evolver import EvolverSpec, read_config
+from .evolver import MAX_BATCH, EvolverSpec, read_config
+from .runner import RunFault, bound_fitness
 from .store import DEFAULT_PATH, ResultStore
+from .supervisor import DEFAULT_MEMORY_LIMIT_MB, DEFAULT_TIME_LIMIT, Limits
 
 DEFAULT_EVOLVER = "neat"  # the best reference evolver on the quick suite
-QUICK_SUITE = ("xor-v1",)
+QUICK_SUITE = ("xor-v2",)
 DEFAULT_RUNS = 10
 
 
@@ -45,6 +52,21 @@ def _whole(minimum: int):
 
 
 _positive, _seed = _whole(1), _whole(0)
+
+
+def _limit(kind: type):
+    """An argparse type: a number >= 0 of ``kind``; 0 means no limit (None)."""
+
+    def parse(text: str) -> Any:
+        try:
+            value = kind(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
+        if not value >= 0 or value == float("inf"):
+            raise argparse.ArgumentTypeError(f"must be 0 (no limit) or more, got {text}")
+        return value or None
+
+    return parse
 
 
 def _assignment(text: str) -> tuple[str, Any]:
@@ -97,6 +119,33 @@ def build_parser() -> argparse.ArgumentParser:
         help="task setting",
     )
     r.add_argument("--workers", type=_positive, default=1, help="parallel worker processes")
+    r.add_argument(
+        "--time-limit",
+        type=_limit(float),
+        default=DEFAULT_TIME_LIMIT,
+        metavar="SECONDS",
+        help=f"most seconds one evolver call may take (default {DEFAULT_TIME_LIMIT:g}; 0: none)",
+    )
+    r.add_argument(
+        "--memory-limit",
+        type=_limit(int),
+        default=DEFAULT_MEMORY_LIMIT_MB,
+        metavar="MB",
+        help="most megabytes a run may add to its worker process "
+        f"(default {DEFAULT_MEMORY_LIMIT_MB}; 0: none)",
+    )
+    r.add_argument(
+        "--max-batch",
+        type=_positive,
+        default=MAX_BATCH,
+        metavar="N",
+        help=f"most networks one ask() may return (default {MAX_BATCH:,})",
+    )
+    r.add_argument(
+        "--in-process",
+        action="store_true",
+        help="run in this process, one run at a time, with no time or memory limit (debugging)",
+    )
     r.add_argument("--quiet", action="store_true", help="no progress bar and no report")
 
     rp = sub.add_parser("report", help="summarise the runs in a store")
@@ -119,7 +168,7 @@ def _cmd_tasks(args: argparse.Namespace) -> None:
 
     rows = specs()
     if args.format == "json":
-        print(json.dumps([_spec_json(s) for s in rows], indent=2))
+        print(jsonsafe.dumps([_spec_json(s) for s in rows], indent=2))
         return
     for s in rows:
         print(
@@ -160,8 +209,22 @@ def _plan(args: argparse.Namespace) -> CampaignPlan:
 
 def _cmd_run(args: argparse.Namespace) -> None:
     plan = _plan(args)
+    limits = Limits(args.time_limit, args.memory_limit, args.max_batch)
     with ResultStore(args.store) as store:
-        done, skipped = execute(plan, store, workers=args.workers, progress=not args.quiet)
+        outcome = execute(
+            plan,
+            store,
+            workers=args.workers,
+            progress=not args.quiet,
+            limits=limits,
+            in_process=args.in_process,
+        )
+        if outcome.internal_errors:
+            raise InternalError(
+                f"{outcome.internal_errors} run(s) stopped on an internal error and were not "
+                "stored (they run again when the campaign resumes)",
+                outcome.crash_log,
+            )
         if args.quiet:
             return
         wanted = {(e.name, e.config_hash) for e in plan.evolvers}
@@ -171,20 +234,20 @@ def _cmd_run(args: argparse.Namespace) -> None:
             for r in store.records(with_log=False)
             if (r.evolver, r.config_hash) in wanted and r.task in tasks
         ]
-    print(f"{done} runs done, {skipped} already in {args.store}")
+    print(f"{outcome.done} runs done, {outcome.skipped} already in {args.store}")
     print(report_mod.render(report_mod.build(records), "text"))
 
 
 def _cmd_report(args: argparse.Namespace) -> None:
-    with ResultStore(args.store, create=False) as store:
+    with ResultStore(args.store, write=False) as store:
         rows = report_mod.build(store.records(with_log=False))
     print(report_mod.render(rows, args.format))
 
 
 def _cmd_export(args: argparse.Namespace) -> None:
-    with ResultStore(args.store, create=False) as store:
+    with ResultStore(args.store, write=False) as store:
         for record in store.records():
-            sys.stdout.write(json.dumps(record.to_dict(), sort_keys=True) + "\n")
+            sys.stdout.write(jsonsafe.dumps(record.to_dict(), sort_keys=True) + "\n")
 
 
 def _cmd_evaluate(args: argparse.Namespace) -> None:
@@ -203,13 +266,22 @@ def _cmd_evaluate(args: argparse.Namespace) -> None:
     network = loads(text, where=f"network file {args.network}")
     validate(network, task.spec.inputs, task.spec.outputs, where=f"network file {args.network}")
     compiled = compile_network(network)
-    result = task.evaluate(compiled)
+    spec = task.spec
+    raw = task.evaluate(compiled)
+    try:
+        (result,), non_finite = bound_fitness(
+            [raw], spec.id, spec.min_fitness, spec.max_fitness, generation=0
+        )
+    except RunFault as fault:
+        raise RuntimeError(str(fault)) from None  # the task broke its own bounds: a bug
     check = task.success_test(compiled, result)
     print(
-        json.dumps(
+        jsonsafe.dumps(
             {
-                "task": task.spec.id,
+                "task": spec.id,
                 "fitness": result.fitness,
+                "fitness_bounds": [spec.min_fitness, spec.max_fitness],
+                "non_finite_output": bool(non_finite),
                 "solved": check.solved,
                 "details": dict(check.details),
                 "hidden_nodes": network.hidden_nodes,
@@ -228,6 +300,20 @@ COMMANDS = {
 }
 
 
+class InternalError(Exception):
+    """A fault of neuroyard itself, reported with the crash log that holds its traceback."""
+
+    def __init__(self, message: str, crash_log: Path | None) -> None:
+        super().__init__(message)
+        self.crash_log = crash_log
+
+
+def _internal(message: str, crash_log: Path | None) -> int:
+    where = f"traceback in {crash_log}" if crash_log else "no crash log could be written"
+    print(f"neuroyard: internal error: {message} ({where})", file=sys.stderr)
+    return 3
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     try:
         args = build_parser().parse_args(argv)
@@ -240,14 +326,13 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 130
     except BrokenPipeError:
         return 0
-    except Exception as exc:  # a bug: still one line, unless debugging
+    except InternalError as exc:
+        return _internal(str(exc), exc.crash_log)
+    except Exception as exc:  # a bug: one line and a crash log, unless debugging
         if os.environ.get("NEUROYARD_DEBUG"):
             raise
-        print(
-            f"neuroyard: internal error: {type(exc).__name__}: {exc} (set NEUROYARD_DEBUG=1 for details)",
-            file=sys.stderr,
-        )
-        return 3
+        log = crashlog.write(traceback.format_exc())
+        return _internal(f"{type(exc).__name__}: {exc}", log)
     return 0
 
 

@@ -26,6 +26,7 @@ from tabulate import tabulate
 
 from neuroyard.reference.published import figures_for
 
+from . import jsonsafe
 from .runner import RunRecord
 from .stats import GroupSummary, fisher_p_value, summarize, welch_p_value
 
@@ -78,7 +79,6 @@ class ReportRow:
         }
         row.update({k: v for k, v in asdict(s).items() if k != "success_ci"})
         row["success_ci_low"], row["success_ci_high"] = s.success_ci
-        row["ert"] = None if math.isinf(s.ert) else s.ert
         row["published"] = [asdict(c) for c in self.comparisons]
         return row
 
@@ -289,7 +289,7 @@ def _setting(value: Any) -> str:
 def render(rows: Sequence[ReportRow], fmt: str = "text") -> str:
     """The report as text (aligned tables), markdown (GitHub tables) or JSON (a list of rows)."""
     if fmt == "json":
-        return json.dumps([r.to_json() for r in rows], indent=2)
+        return jsonsafe.dumps([r.to_json() for r in rows], indent=2)
     if not rows:
         return "no runs in the store"
     parts = [_main_table(rows, fmt)]

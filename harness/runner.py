@@ -2,10 +2,12 @@
 
 The loop: ``ask`` a batch, validate and compile every network, evaluate them (each
 network = one counted evaluation; the batch is cut so that no evaluation goes past the
-budget), run the task's success test on the batch's fittest network that has not been
-tested before in this run (counted apart), log the generation, ``tell`` the results. The
+budget), bound every fitness (a non-finite one becomes the task's worst and is counted),
+run the task's success test on the batch's fittest network that has not been tested before
+in this run (counted apart), ``tell`` the results, read ``stats``, log the generation. The
 run ends when the success test passes (solved), the budget is spent (unsolved), or the
-evolver misbehaves (failed, with the reason).
+evolver misbehaves (failed, with the reason); then the evolver's optional ``stop`` is
+called with the outcome.
 
 **Which network is success-tested.** Each generation one network is tested: the fittest
 one whose :func:`~.compiled.fingerprint` has not been tested before in the run, usually the
@@ -13,8 +15,8 @@ generation's best. Success tests are deterministic, so testing an identical netw
 (an elite copied unchanged from generation to generation) can only repeat a failure; the
 test goes to the next-fittest network instead. This follows the NEAT authors' double-pole
 setup as recalled, which tests the champion of the fittest species not tested since it last
-improved (from memory, MEMORY-medium; LITERATURE.md 2.6 only says "the best network of a
-generation"). A generation in which every network was tested before runs no test.
+improved (from memory, MEMORY-medium; the published text only says "the best network of
+a generation"). A generation in which every network was tested before runs no test.
 
 Timing (``RunRecord.timing``, seconds of wall time): ``evolver`` inside the evolver's calls,
 ``kernel_load`` loading (or compiling) the task's numba kernels, which happens once per
@@ -30,14 +32,15 @@ import math
 import time
 from collections.abc import Mapping, Sequence
 from dataclasses import asdict, dataclass, field
-from typing import Any
+from typing import Any, Protocol
 
-from . import provenance
+from . import jsonsafe, provenance
 from .batch import CompiledBatch, compile_batch
 from .compiled import fingerprint
 from .errors import NetworkError
-from .evolver import EvolverSpec
+from .evolver import MAX_BATCH, Evaluation, EvolverSpec, Outcome
 from .network import Network, fully_connected, to_dict
+from .seeds import evolver_seed, task_seed
 
 SOLVED, UNSOLVED, FAILED = "solved", "unsolved", "failed"
 
@@ -72,7 +75,10 @@ class RunSpec:
 class GenerationLog:
     """One generation: fitness of its best and mean candidate, evaluations so far, best size.
 
-    ``stats`` are the evolver's own figures (its ``stats()``); ``champion_test`` holds the
+    ``stats`` are the evolver's own figures (its ``stats()``, read after ``tell()`` of this
+    generation, so a row is one generation's picture); ``non_finite`` counts the
+    evaluations whose fitness was not finite and was recorded as the task's worst (they
+    count in the mean as that worst value); ``champion_test`` holds the
     generation's success test: ``rank``, the tested network's place in the generation's
     fitness order (0 = the fittest; see the module docstring), and the task's details (for
     the pole tasks the steps it balanced and, when it reached the horizon, its
@@ -88,6 +94,7 @@ class GenerationLog:
     best_connections: int
     stats: dict[str, float] = field(default_factory=dict)
     champion_test: dict[str, Any] = field(default_factory=dict)
+    non_finite: int = 0
 
 
 @dataclass
@@ -143,41 +150,105 @@ class RunRecord:
         return cls(**data)
 
 
-class _EvolverFault(Exception):
-    """The evolver broke the contract; the message is the recorded reason."""
+class RunFault(Exception):
+    """The evolver broke the contract, or the task gave a fitness outside its stated bounds;
+    the message is the recorded reason of the failed run."""
+
+
+class Watch(Protocol):
+    """Told when a run enters and leaves each evolver call, so that a supervisor in another
+    process can bound the call's time (see :mod:`.supervisor`). ``generation`` is None for
+    the calls before the first generation (building the evolver, ``start``, ``settings``)."""
+
+    def enter(self, call: str, generation: int | None) -> None: ...
+
+    def leave(self) -> None: ...
+
+    def progress(self, generations: int, evaluations: int) -> None: ...
+
+
+class _Unwatched:
+    def enter(self, call: str, generation: int | None) -> None:
+        pass
+
+    def leave(self) -> None:
+        pass
+
+    def progress(self, generations: int, evaluations: int) -> None:
+        pass
+
+
+def call_label(call: str, generation: int | None) -> str:
+    """``ask() in generation 3``, or the call alone before the first generation."""
+    return call if generation is None else f"{call} in generation {generation}"
 
 
 class _Clock:
-    """Accumulates the seconds spent inside the evolver."""
+    """Makes every evolver call: times it, tells the watch, turns a fault into a RunFault."""
 
-    def __init__(self) -> None:
+    def __init__(self, watch: Watch) -> None:
         self.seconds = 0.0
+        self.watch = watch
 
-    def call(self, what: str, fn, *args):
+    def call(self, what: str, generation: int | None, fn, *args):
         start = time.perf_counter()
+        self.watch.enter(what, generation)
         try:
             return fn(*args)
+        except MemoryError:
+            raise RunFault(f"{call_label(what, generation)} ran out of memory") from None
         except (Exception, SystemExit) as exc:  # a plugin fault ends the run, not the campaign
-            raise _EvolverFault(f"{what} raised {type(exc).__name__}: {exc}") from exc
+            raise RunFault(
+                f"{call_label(what, generation)} raised {type(exc).__name__}: {exc}"
+            ) from exc
         finally:
+            self.watch.leave()
             self.seconds += time.perf_counter() - start
 
 
-def _checked_batch(batch: Any, generation: int) -> list[Network]:
+def _checked_batch(batch: Any, generation: int, max_batch: int) -> list[Network]:
     """The evolver's batch as a list of Network; anything else is a fault that ends the run."""
     if not isinstance(batch, Sequence) or isinstance(batch, str | bytes):
-        raise _EvolverFault(
+        raise RunFault(
             f"ask() in generation {generation} returned {type(batch).__name__}, "
             "expected a list of Network"
         )
     if len(batch) == 0:
-        raise _EvolverFault(f"ask() returned an empty batch in generation {generation}")
+        raise RunFault(f"ask() returned an empty batch in generation {generation}")
+    if len(batch) > max_batch:
+        raise RunFault(
+            f"ask() returned {len(batch):,} networks in generation {generation}, more than "
+            f"the batch limit of {max_batch:,}"
+        )
     for k, net in enumerate(batch):
         if not isinstance(net, Network):
-            raise _EvolverFault(
+            raise RunFault(
                 f"candidate {k} of generation {generation} is a {type(net).__name__}, not a Network"
             )
     return list(batch)
+
+
+def bound_fitness(
+    results: Sequence[Evaluation], task: str, low: float, high: float | None, generation: int
+) -> tuple[list[Evaluation], int]:
+    """The task's results with every non-finite fitness replaced by ``low`` (the task's
+    worst), and how many were replaced. A finite fitness outside ``[low, high]`` (``high``
+    None: no upper bound) is a fault of the task: :class:`RunFault` naming the candidate."""
+    out = list(results)
+    replaced = 0
+    for k, result in enumerate(out):
+        f = result.fitness
+        if math.isfinite(f):
+            if f < low or (high is not None and f > high):
+                top = "inf" if high is None else f"{high:g}"
+                raise RunFault(
+                    f"task {task} gave candidate {k} of generation {generation} the fitness "
+                    f"{f!r}, outside its stated bounds [{low:g}, {top}]"
+                )
+            continue
+        out[k] = Evaluation(low, result.behaviour)
+        replaced += 1
+    return out, replaced
 
 
 _WARM: set[str] = set()
@@ -203,20 +274,15 @@ def load_kernels(task_id: str, settings: Mapping[str, Any]) -> float:
     return time.perf_counter() - start
 
 
-def run_one(spec: RunSpec) -> RunRecord:
-    """Execute one run (see module docstring). Never raises for evolver faults."""
+def new_record(spec: RunSpec, task: Any = None) -> RunRecord:
+    """The record of ``spec`` before it runs: seeds, budget, settings, versions, host.
+    ``task``: the run's task instance, built here when not given."""
     from neuroyard.tasks import make  # tasks sit above the harness core in the layering
 
-    from .seeds import evolver_seed, task_seed
-
-    wall_start = time.perf_counter()
-    kernel_load = load_kernels(spec.task, spec.task_settings)
-    seed = evolver_seed(spec.campaign_seed, spec.evolver.name, spec.task, spec.run_index)
     t_seed = task_seed(spec.campaign_seed, spec.task, spec.run_index)
-    task = make(spec.task, seed=t_seed, **spec.task_settings)
-    task_spec = task.spec
-    budget = spec.budget if spec.budget is not None else task_spec.default_budget
-    record = RunRecord(
+    if task is None:
+        task = make(spec.task, seed=t_seed, **spec.task_settings)
+    return RunRecord(
         evolver=spec.evolver.name,
         config=dict(spec.evolver.config),
         config_hash=spec.evolver.config_hash,
@@ -224,76 +290,54 @@ def run_one(spec: RunSpec) -> RunRecord:
         task_settings=dict(task.settings),
         run_index=spec.run_index,
         campaign_seed=spec.campaign_seed,
-        seed=seed,
+        seed=evolver_seed(spec.campaign_seed, spec.evolver.name, spec.task, spec.run_index),
         task_seed=t_seed,
-        budget=budget,
+        budget=spec.budget if spec.budget is not None else task.spec.default_budget,
         versions=provenance.versions(),
         host=provenance.host(),
     )
-    clock = _Clock()
-    best_fitness = -math.inf
-    tested: set[bytes] = set()  # fingerprints of the networks success-tested in this run
+
+
+def run_one(
+    spec: RunSpec,
+    watch: Watch | None = None,
+    max_batch: int = MAX_BATCH,
+    memory_limit_mb: int | None = None,
+) -> RunRecord:
+    """Execute one run (see module docstring). Never raises for evolver faults.
+
+    ``watch`` is told of every evolver call (a supervisor bounds their time); ``max_batch``
+    is the most networks one ``ask()`` may return; ``memory_limit_mb``, when the process
+    runs under a memory limit, is named in the reason of a run that ran out of memory."""
+    from neuroyard.tasks import make  # tasks sit above the harness core in the layering
+
+    wall_start = time.perf_counter()
+    kernel_load = load_kernels(spec.task, spec.task_settings)
+    task = make(spec.task, seed=task_seed(spec.campaign_seed, spec.task, spec.run_index),
+                **spec.task_settings)  # fmt: skip
+    record = new_record(spec, task)
+    budget = record.budget
+    seed = record.seed
+    clock = _Clock(watch or _Unwatched())
+    evolver = None
     try:
-        evolver = clock.call("building the evolver", spec.evolver.build)
-        clock.call("start()", evolver.start, task.problem(budget), seed)
+        evolver = clock.call("building the evolver", None, spec.evolver.build)
+        clock.call("start()", None, evolver.start, task.problem(budget), seed)
         if hasattr(evolver, "settings"):
             record.evolver_settings = _settings(evolver, clock)
-        while record.evaluations < budget:
-            generation = record.generations
-            batch = _checked_batch(clock.call("ask()", evolver.ask), generation)
-            batch = batch[: budget - record.evaluations]  # never evaluate past the budget
-            try:
-                compiled = compile_batch(
-                    batch,
-                    task_spec.inputs,
-                    task_spec.outputs,
-                    f"candidate {{}} of generation {generation}".format,
-                )
-            except NetworkError as exc:
-                raise _EvolverFault(f"invalid network: {exc}") from None
-            results = task.evaluate_batch(compiled)
-            record.evaluations += len(batch)
-            record.generations += 1
-            fitness = [r.fitness for r in results]
-            # fittest first, ties in batch order
-            ranking = sorted(range(len(fitness)), key=lambda k: -fitness[k])
-            top = ranking[0]
-            solved, details, pick = False, {}, None
-            candidate = _fittest_untested(compiled, ranking, tested)
-            if candidate is not None:
-                pick, rank = candidate
-                check = task.success_test(compiled.network(pick), results[pick])
-                record.success_evaluations += check.evaluations
-                solved, details = check.solved, {"rank": rank, **check.details}
-            if solved or fitness[top] > best_fitness:
-                kept = pick if solved else top  # a solution is the network that passed
-                best_fitness = fitness[top]
-                record.best_fitness = fitness[kept]
-                record.best_network = to_dict(batch[kept])
-                record.hidden_nodes = batch[kept].hidden_nodes
-                record.connections = batch[kept].enabled_connections
-                record.success_details = details if pick == kept else {}
-            stats = _stats(evolver, clock)
-            record.log.append(
-                GenerationLog(
-                    generation=generation,
-                    evaluations=record.evaluations,
-                    best_fitness=fitness[top],
-                    mean_fitness=math.fsum(fitness) / len(fitness),
-                    best_hidden=batch[top].hidden_nodes,
-                    best_connections=batch[top].enabled_connections,
-                    stats=stats,
-                    champion_test=details,
-                )
-            )
-            if solved:
-                record.status = SOLVED
-                break
-            if record.evaluations < budget:
-                clock.call("tell()", evolver.tell, tuple(results))
-    except _EvolverFault as fault:
+        _generations(evolver, task, budget, record, clock, max_batch)
+    except RunFault as fault:
         record.status = FAILED
         record.failure = str(fault)
+    except MemoryError:  # in the harness's part of a generation (compiling, evaluating)
+        record.status = FAILED
+        record.failure = (
+            f"the run ran out of memory while the harness evaluated generation {record.generations}"
+        )
+    if record.status == FAILED and memory_limit_mb and "ran out of memory" in record.failure:
+        record.failure += f" (memory limit {memory_limit_mb:,} MB)"
+    if evolver is not None and hasattr(evolver, "stop"):
+        _stop(evolver, clock, record)
     wall = time.perf_counter() - wall_start
     record.timing = {
         "wall": wall,
@@ -302,6 +346,85 @@ def run_one(spec: RunSpec) -> RunRecord:
         "harness": wall - clock.seconds - kernel_load,
     }
     return record
+
+
+def _generations(
+    evolver: Any, task: Any, budget: int, record: RunRecord, clock: _Clock, max_batch: int
+) -> None:
+    """The generation loop of :func:`run_one`: until solved or the budget is spent."""
+    task_spec = task.spec
+    best_fitness = -math.inf
+    tested: set[bytes] = set()  # fingerprints of the networks success-tested in this run
+    while record.evaluations < budget:
+        generation = record.generations
+        batch = _checked_batch(clock.call("ask()", generation, evolver.ask), generation, max_batch)
+        batch = batch[: budget - record.evaluations]  # never evaluate past the budget
+        try:
+            compiled = compile_batch(
+                batch,
+                task_spec.inputs,
+                task_spec.outputs,
+                f"candidate {{}} of generation {generation}".format,
+            )
+        except NetworkError as exc:
+            raise RunFault(f"invalid network: {exc}") from None
+        results, non_finite = bound_fitness(
+            task.evaluate_batch(compiled),
+            task_spec.id,
+            task_spec.min_fitness,
+            task_spec.max_fitness,
+            generation,
+        )
+        record.evaluations += len(batch)
+        record.generations += 1
+        clock.watch.progress(record.generations, record.evaluations)
+        fitness = [r.fitness for r in results]
+        # fittest first, ties in batch order
+        ranking = sorted(range(len(fitness)), key=lambda k: -fitness[k])
+        top = ranking[0]
+        solved, details, pick = False, {}, None
+        candidate = _fittest_untested(compiled, ranking, tested)
+        if candidate is not None:
+            pick, rank = candidate
+            check = task.success_test(compiled.network(pick), results[pick])
+            record.success_evaluations += check.evaluations
+            solved, details = check.solved, {"rank": rank, **check.details}
+        if solved or fitness[top] > best_fitness:
+            kept = pick if solved else top  # a solution is the network that passed
+            best_fitness = fitness[top]
+            record.best_fitness = fitness[kept]
+            record.best_network = to_dict(batch[kept])
+            record.hidden_nodes = batch[kept].hidden_nodes
+            record.connections = batch[kept].enabled_connections
+            record.success_details = details if pick == kept else {}
+        row = GenerationLog(
+            generation=generation,
+            evaluations=record.evaluations,
+            best_fitness=fitness[top],
+            mean_fitness=math.fsum(fitness) / len(fitness),
+            best_hidden=batch[top].hidden_nodes,
+            best_connections=batch[top].enabled_connections,
+            champion_test=details,
+            non_finite=non_finite,
+        )
+        record.log.append(row)  # the row is complete once tell() and stats() are done
+        clock.call("tell()", generation, evolver.tell, tuple(results))
+        row.stats = _stats(evolver, clock, generation)
+        if solved:
+            record.status = SOLVED
+            return
+    record.status = UNSOLVED
+
+
+def _stop(evolver: Any, clock: _Clock, record: RunRecord) -> None:
+    """Call the optional ``stop(outcome)``; a fault there fails a run not failed already."""
+    outcome = Outcome(record.status, record.generations, record.evaluations, record.failure)
+    try:
+        clock.call("stop()", None, evolver.stop, outcome)
+    except RunFault as fault:
+        if record.status != FAILED:
+            record.status = FAILED
+            record.failure = str(fault)
 
 
 def _fittest_untested(
@@ -319,24 +442,31 @@ def _fittest_untested(
 
 
 def _settings(evolver: Any, clock: _Clock) -> dict[str, Any]:
-    settings = clock.call("settings()", evolver.settings)
+    settings = clock.call("settings()", None, evolver.settings)
     if not isinstance(settings, Mapping):
-        raise _EvolverFault(f"settings() returned {type(settings).__name__}, expected a mapping")
+        raise RunFault(f"settings() returned {type(settings).__name__}, expected a mapping")
     try:
-        return json.loads(json.dumps(dict(settings)))
+        return jsonsafe.loads(jsonsafe.dumps(dict(settings)))
     except (TypeError, ValueError) as exc:
-        raise _EvolverFault(f"settings() is not JSON-serialisable: {exc}") from None
+        raise RunFault(f"settings() is not JSON-serialisable: {exc}") from None
 
 
-def _stats(evolver: Any, clock: _Clock) -> dict[str, float]:
+def _stats(evolver: Any, clock: _Clock, generation: int) -> dict[str, float]:
+    """The evolver's figures after ``tell()`` of ``generation``; non-finite ones are kept
+    (and written by the JSON rule of :mod:`.jsonsafe`)."""
     if not hasattr(evolver, "stats"):
         return {}
-    stats = clock.call("stats()", evolver.stats)
+    stats = clock.call("stats()", generation, evolver.stats)
     if not isinstance(stats, Mapping):
-        raise _EvolverFault(f"stats() returned {type(stats).__name__}, expected a mapping")
+        raise RunFault(
+            f"stats() in generation {generation} returned {type(stats).__name__}, "
+            "expected a mapping"
+        )
     out: dict[str, float] = {}
     for key, value in stats.items():
         if isinstance(value, bool) or not isinstance(value, int | float):
-            raise _EvolverFault(f"stats() value {key!r} is {value!r}, expected a number")
+            raise RunFault(
+                f"stats() in generation {generation}: value {key!r} is {value!r}, expected a number"
+            )
         out[str(key)] = float(value)
     return out

@@ -2,33 +2,67 @@
 
 Tables: ``meta`` (schema version), ``campaigns`` (seed and plan of each campaign),
 ``runs`` (one row per finished run, the full record as JSON plus the columns reports
-filter on) and ``generations`` (the per-generation log). A run is written whole or not at
-all, so a store left by a killed process opens cleanly with every finished run in it, and
-running the same campaign again skips the runs whose key is already stored.
+filter on), ``generations`` (the per-generation log) and ``claims`` (which coordinator
+process is running which pending run). A run is written whole or not at all, so a store
+left by a killed process opens cleanly with every finished run in it, and running the same
+campaign again skips the runs whose key is already stored.
 
-Schema versions: 1 had no ``champion_test`` column in ``generations``. A version-1 store is
-read as it is (its generations have an empty ``champion_test``) and is upgraded to
-version 2 inside the transaction of the first run written to it, so an upgrade that fails
-leaves the store as it was.
+**Opening.** ``ResultStore(path)`` opens for writing: it creates the file (and its folder)
+when missing and checks at once that the store can be written (the file, its folder, which
+SQLite needs for its journal, and free disk space), so ``run`` fails before any run starts.
+``ResultStore(path, write=False)`` opens an existing store read-only (SQLite's ``mode=ro``):
+reports and exports work on a read-only file, in a read-only folder, and never change it.
+
+**Claims.** Several coordinator processes may run the same campaign on one store: each
+pending run is claimed atomically before it starts (:meth:`ResultStore.claim`); a claim
+whose owner has shown no sign of life for :data:`CLAIM_EXPIRY` seconds (it refreshes its
+claims every :data:`HEARTBEAT` seconds) is void and may be claimed again, and so is at once
+the claim of a process of this machine that no longer exists. A run finished by
+two coordinators (a claim taken over from a stalled one) is stored once.
+
+**JSON.** Record, stats and details are stored as strict JSON (non-finite numbers by the
+rule of :mod:`.jsonsafe`).
+
+Schema versions: 1 had no ``champion_test`` column in ``generations``; 2 had no
+``non_finite`` column and no ``claims`` table. An older store is read as it is (missing
+columns read as their defaults) and is upgraded inside the transaction of the first write
+to it, so an upgrade that fails leaves the store as it was.
 """
 
 from __future__ import annotations
 
-import json
+import contextlib
+import os
+import secrets
+import shutil
+import socket
 import sqlite3
-from collections.abc import Iterator, Mapping
+import threading
+import time
+from collections.abc import Iterable, Iterator, Mapping
+from contextlib import contextmanager
 from dataclasses import asdict
 from pathlib import Path
 from typing import Any
 
+from . import jsonsafe
 from .errors import StoreError
 from .runner import GenerationLog, RunRecord
 
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 READABLE_VERSIONS = tuple(str(v) for v in range(1, SCHEMA_VERSION + 1))  # older ones upgrade
 DEFAULT_PATH = Path("results") / "neuroyard.db"
+CLAIM_EXPIRY = 60.0  # s without a heartbeat after which a claim is void (ours)
+HEARTBEAT = 10.0  # s between a coordinator's refreshes of its claims (ours)
+MIN_FREE_BYTES = 1 << 20  # below this much free disk space a store counts as full (ours)
 
-_SCHEMA = """
+_CLAIMS = """CREATE TABLE IF NOT EXISTS claims (
+    run_key TEXT PRIMARY KEY,
+    owner TEXT NOT NULL,
+    heartbeat REAL NOT NULL
+)"""
+_SCHEMA = (
+    """
 CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
 CREATE TABLE IF NOT EXISTS campaigns (
     id INTEGER PRIMARY KEY,
@@ -61,40 +95,84 @@ CREATE TABLE IF NOT EXISTS generations (
     best_connections INTEGER NOT NULL,
     stats TEXT NOT NULL,
     champion_test TEXT NOT NULL DEFAULT '{}',
+    non_finite INTEGER NOT NULL DEFAULT 0,
     PRIMARY KEY (run_id, generation)
 );
 """
+    + _CLAIMS
+    + ";"
+)
+# Statements that bring a store of version v to v + 1 (run inside a write transaction).
+_UPGRADES = {
+    1: ("ALTER TABLE generations ADD COLUMN champion_test TEXT NOT NULL DEFAULT '{}'",),
+    2: ("ALTER TABLE generations ADD COLUMN non_finite INTEGER NOT NULL DEFAULT 0", _CLAIMS),
+}
 
 
 class ResultStore:
-    """Open (creating if needed) the store at ``path``; use as a context manager."""
+    """Open the store at ``path`` for writing (created if needed) or, with ``write=False``,
+    an existing store read-only; use as a context manager. Every problem with the file is
+    a :class:`StoreError` that names the path and the reason."""
 
-    def __init__(self, path: str | Path = DEFAULT_PATH, create: bool = True) -> None:
+    def __init__(self, path: str | Path = DEFAULT_PATH, write: bool = True) -> None:
         self.path = Path(path)
-        if not self.path.exists():
-            if not create:
-                raise StoreError(f"results store {self.path}: no such file")
-            try:
-                self.path.parent.mkdir(parents=True, exist_ok=True)
-            except OSError as exc:
-                raise StoreError(
-                    f"results store {self.path}: cannot create folder ({exc.strerror})"
-                ) from None
-        elif self.path.is_dir():
+        self.writable = write
+        if self.path.is_dir():
             raise StoreError(f"results store {self.path}: is a folder, not a store file")
+        if write:
+            self._prepare_for_writing()
+        elif not self.path.exists():
+            raise StoreError(f"results store {self.path}: no such file")
         try:
-            self.db = sqlite3.connect(self.path, timeout=30)
+            if write:
+                self.db = sqlite3.connect(self.path, timeout=30)
+            else:
+                self.db = sqlite3.connect(f"{self.path.resolve().as_uri()}?mode=ro", uri=True)
             self.db.execute("PRAGMA foreign_keys = ON")
-            self._check_schema(create)
+            self._check_schema()
+            if write:
+                self._probe_write()
         except sqlite3.DatabaseError as exc:
-            raise StoreError(f"results store {self.path}: not a neuroyard store ({exc})") from None
+            raise StoreError(f"results store {self.path}: {_reason(exc)}") from None
 
-    def _check_schema(self, create: bool) -> None:
+    def _prepare_for_writing(self) -> None:
+        """Create the folder; fail with the reason when the file, its folder (SQLite writes
+        its journal beside the file) or the disk cannot take a write."""
+        folder = self.path.parent
+        try:
+            folder.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise StoreError(
+                f"results store {self.path}: cannot create its folder ({exc.strerror})"
+            ) from None
+        if self.path.exists() and not os.access(self.path, os.W_OK):
+            raise StoreError(f"results store {self.path}: cannot write it: the file is read-only")
+        if not os.access(folder, os.W_OK | os.X_OK):
+            what = "write to" if self.path.exists() else "create"
+            raise StoreError(
+                f"results store {self.path}: cannot {what} it: its folder {folder} is read-only"
+            )
+        free = shutil.disk_usage(folder).free
+        if free < MIN_FREE_BYTES:
+            raise StoreError(
+                f"results store {self.path}: cannot write it: the disk is full "
+                f"({free:,} bytes free)"
+            )
+
+    def _probe_write(self) -> None:
+        """A write that is rolled back: proves the file and its journal can be written."""
+        self.db.execute("BEGIN IMMEDIATE")
+        try:
+            self.db.execute("UPDATE meta SET value = value WHERE key = 'schema_version'")
+        finally:
+            self.db.rollback()
+
+    def _check_schema(self) -> None:
         tables = {
             r[0] for r in self.db.execute("SELECT name FROM sqlite_master WHERE type='table'")
         }
         if not tables:
-            if not create:
+            if not self.writable:
                 raise StoreError(f"results store {self.path}: empty file, no results")
             with self.db:
                 self.db.executescript(_SCHEMA)
@@ -115,15 +193,24 @@ class ResultStore:
             )
         self.version = int(row[0])
 
-    def _upgrade(self) -> None:
-        """Bring a version-1 store to the current schema (call inside a transaction)."""
-        # the UPDATE opens the transaction, so the ALTER below is rolled back with it
-        self.db.execute(
-            "UPDATE meta SET value=? WHERE key='schema_version'", (str(SCHEMA_VERSION),)
-        )
-        self.db.execute(
-            "ALTER TABLE generations ADD COLUMN champion_test TEXT NOT NULL DEFAULT '{}'"
-        )
+    @contextmanager
+    def _write(self) -> Iterator[sqlite3.Connection]:
+        """A write transaction that first upgrades an older store; all or nothing."""
+        self.db.execute("BEGIN IMMEDIATE")
+        try:
+            for version in range(self.version, SCHEMA_VERSION):
+                for statement in _UPGRADES[version]:
+                    self.db.execute(statement)
+            if self.version < SCHEMA_VERSION:
+                self.db.execute(
+                    "UPDATE meta SET value=? WHERE key='schema_version'", (str(SCHEMA_VERSION),)
+                )
+            yield self.db
+        except BaseException:
+            self.db.rollback()
+            raise
+        self.db.commit()
+        self.version = SCHEMA_VERSION  # reached only when the commit went through
 
     def __enter__(self) -> ResultStore:
         return self
@@ -136,28 +223,97 @@ class ResultStore:
 
     def campaign(self, seed: int, plan: Mapping[str, Any], plan_hash: str) -> int:
         """Id of the campaign with this plan, created on first use."""
-        with self.db:
-            self.db.execute(
+        with self._write() as db:
+            db.execute(
                 "INSERT OR IGNORE INTO campaigns(plan_hash, seed, plan) VALUES (?, ?, ?)",
-                (plan_hash, seed, json.dumps(plan, sort_keys=True)),
+                (plan_hash, seed, jsonsafe.dumps(plan, sort_keys=True)),
             )
-        return self.db.execute(
-            "SELECT id FROM campaigns WHERE plan_hash=?", (plan_hash,)
-        ).fetchone()[0]
+            return db.execute(
+                "SELECT id FROM campaigns WHERE plan_hash=?", (plan_hash,)
+            ).fetchone()[0]
 
     def finished_keys(self) -> set[str]:
         return {r[0] for r in self.db.execute("SELECT run_key FROM runs")}
 
-    def save(self, run_key: str, campaign_id: int, record: RunRecord) -> None:
-        """Write one finished run and its log in one transaction (all or nothing)."""
+    def claim(self, keys: Iterable[str], owner: str, limit: int) -> list[str]:
+        """Claim for ``owner`` up to ``limit`` of ``keys`` that are neither stored nor claimed
+        by a live owner (claims older than :data:`CLAIM_EXPIRY` are void); atomic, so two
+        coordinators never claim the same run. Returns the keys claimed, in ``keys`` order."""
+        if limit < 1:
+            return []
+        now = time.time()
+        with self._write() as db:
+            db.execute("DELETE FROM claims WHERE heartbeat < ?", (now - CLAIM_EXPIRY,))
+            owners = {r[0] for r in db.execute("SELECT DISTINCT owner FROM claims")}
+            db.executemany("DELETE FROM claims WHERE owner=?", [(o,) for o in owners if _gone(o)])
+            taken = {r[0] for r in db.execute("SELECT run_key FROM claims")}
+            done = {r[0] for r in db.execute("SELECT run_key FROM runs")}
+            chosen = [k for k in keys if k not in taken and k not in done][:limit]
+            db.executemany(
+                "INSERT INTO claims(run_key, owner, heartbeat) VALUES (?, ?, ?)",
+                [(k, owner, now) for k in chosen],
+            )
+        return chosen
+
+    def claimed_elsewhere(self, keys: Iterable[str], owner: str) -> int:
+        """How many of ``keys`` are not stored and claimed by another live owner."""
+        wanted = set(keys)
+        if self.version < SCHEMA_VERSION:
+            return 0  # no claims table yet: nobody else is running this store
+        rows = self.db.execute(
+            "SELECT run_key FROM claims WHERE owner != ? AND heartbeat >= ?"
+            " AND run_key NOT IN (SELECT run_key FROM runs)",
+            (owner, time.time() - CLAIM_EXPIRY),
+        )
+        return sum(1 for (key,) in rows if key in wanted)
+
+    @contextmanager
+    def keep_alive(self, owner: str) -> Iterator[None]:
+        """While the block runs, a thread refreshes ``owner``'s claims every
+        :data:`HEARTBEAT` seconds (through its own connection, so it goes on while this
+        thread is busy with a run)."""
+        stop = threading.Event()
+
+        def beat() -> None:
+            db = sqlite3.connect(self.path, timeout=30)
+            try:
+                while not stop.wait(HEARTBEAT):
+                    with contextlib.suppress(sqlite3.Error), db:
+                        db.execute(
+                            "UPDATE claims SET heartbeat=? WHERE owner=?", (time.time(), owner)
+                        )
+            finally:
+                db.close()
+
+        thread = threading.Thread(target=beat, name="neuroyard-claims", daemon=True)
+        thread.start()
+        try:
+            yield
+        finally:
+            stop.set()
+            thread.join()
+
+    def release(self, owner: str, keys: Iterable[str] | None = None) -> None:
+        """Drop the claims of ``owner`` (all of them, or those of ``keys``)."""
+        with self._write() as db:
+            if keys is None:
+                db.execute("DELETE FROM claims WHERE owner=?", (owner,))
+            else:
+                db.executemany(
+                    "DELETE FROM claims WHERE owner=? AND run_key=?", [(owner, k) for k in keys]
+                )
+
+    def save(self, run_key: str, campaign_id: int, record: RunRecord) -> bool:
+        """Write one finished run and its log in one transaction (all or nothing), and drop
+        its claim. Returns False when the run was already stored (by another coordinator)."""
         doc = record.to_dict()
         log = doc.pop("log")
-        with self.db:
-            if self.version < SCHEMA_VERSION:
-                self._upgrade()
-            cur = self.db.execute(
-                "INSERT INTO runs(run_key, campaign_id, evolver, config_hash, task, run_index, status,"
-                " evaluations, generations, record) VALUES (?,?,?,?,?,?,?,?,?,?)",
+        with self._write() as db:
+            db.execute("DELETE FROM claims WHERE run_key=?", (run_key,))
+            cur = db.execute(
+                "INSERT OR IGNORE INTO runs(run_key, campaign_id, evolver, config_hash, task,"
+                " run_index, status, evaluations, generations, record)"
+                " VALUES (?,?,?,?,?,?,?,?,?,?)",
                 (
                     run_key,
                     campaign_id,
@@ -168,11 +324,15 @@ class ResultStore:
                     record.status,
                     record.evaluations,
                     record.generations,
-                    json.dumps(doc, sort_keys=True),
+                    jsonsafe.dumps(doc, sort_keys=True),
                 ),
             )
-            self.db.executemany(
-                "INSERT INTO generations VALUES (?,?,?,?,?,?,?,?,?)",
+            if cur.rowcount == 0:
+                return False
+            db.executemany(
+                "INSERT INTO generations(run_id, generation, evaluations, best_fitness,"
+                " mean_fitness, best_hidden, best_connections, stats, champion_test, non_finite)"
+                " VALUES (?,?,?,?,?,?,?,?,?,?)",
                 [
                     (
                         cur.lastrowid,
@@ -182,13 +342,18 @@ class ResultStore:
                         g["mean_fitness"],
                         g["best_hidden"],
                         g["best_connections"],
-                        json.dumps(g["stats"], sort_keys=True),
-                        json.dumps(g["champion_test"], sort_keys=True),
+                        jsonsafe.dumps(g["stats"], sort_keys=True),
+                        jsonsafe.dumps(g["champion_test"], sort_keys=True),
+                        g["non_finite"],
                     )
                     for g in log
                 ],
             )
-        self.version = SCHEMA_VERSION  # reached only when the transaction committed
+        return True
+
+    def integrity(self) -> str:
+        """SQLite's ``PRAGMA integrity_check``: ``"ok"`` for a sound file."""
+        return "; ".join(r[0] for r in self.db.execute("PRAGMA integrity_check"))
 
     def records(self, with_log: bool = True) -> Iterator[RunRecord]:
         """Every stored run, in a stable order (evolver, task, run index)."""
@@ -196,19 +361,55 @@ class ResultStore:
             "SELECT id, record FROM runs ORDER BY evolver, config_hash, task, run_index, id"
         ).fetchall()
         for run_id, text in rows:
-            doc = json.loads(text)
+            doc = jsonsafe.loads(text)
             doc["log"] = self._log(run_id) if with_log else []
             yield RunRecord.from_dict(doc)
 
     def _log(self, run_id: int) -> list[dict[str, Any]]:
         champion_test = "champion_test" if self.version >= 2 else "'{}'"
+        non_finite = "non_finite" if self.version >= 3 else "0"
         rows = self.db.execute(
             "SELECT generation, evaluations, best_fitness, mean_fitness, best_hidden,"
-            f" best_connections, stats, {champion_test} FROM generations"
+            f" best_connections, stats, {champion_test}, {non_finite} FROM generations"
             " WHERE run_id=? ORDER BY generation",
             (run_id,),
         ).fetchall()
         return [
-            asdict(GenerationLog(g, e, bf, mf, bh, bc, json.loads(st), json.loads(ct)))
-            for g, e, bf, mf, bh, bc, st, ct in rows
+            asdict(GenerationLog(g, e, bf, mf, bh, bc, jsonsafe.loads(st), jsonsafe.loads(ct), nf))
+            for g, e, bf, mf, bh, bc, st, ct, nf in rows
         ]
+
+
+def owner_id() -> str:
+    """A name for this coordinator process in the claims: ``host:process id:nonce``."""
+    return f"{socket.gethostname()}:{os.getpid()}:{secrets.token_hex(4)}"
+
+
+def _gone(owner: str) -> bool:
+    """True when ``owner`` was a process of this host that no longer exists, so its claims
+    are void at once (a process elsewhere is judged by its heartbeat only)."""
+    host, _, rest = owner.partition(":")
+    pid = rest.partition(":")[0]
+    if host != socket.gethostname() or not pid.isdigit():
+        return False
+    try:
+        os.kill(int(pid), 0)
+    except ProcessLookupError:
+        return True
+    except PermissionError:
+        return False
+    return False
+
+
+def _reason(exc: sqlite3.DatabaseError) -> str:
+    """The user's words for a SQLite error on open."""
+    text = str(exc)
+    if "readonly" in text:
+        return "cannot write it: the file or its folder is read-only"
+    if "disk is full" in text or "database or disk is full" in text:
+        return "cannot write it: the disk is full"
+    if "unable to open" in text:
+        return f"cannot open it ({text})"
+    if "locked" in text:
+        return f"another process holds it locked ({text})"
+    return f"not a neuroyard store ({text})"

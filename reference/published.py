@@ -8,7 +8,7 @@ from here.
 File layout (one file per task family)::
 
     [[figure]]
-    task = "xor-v1"                    # neuroyard task id the figure belongs to
+    task = "xor-v2"                    # neuroyard task id the figure belongs to
     method = "NEAT"                    # method as named in the paper
     compare_with = "neat"              # neuroyard evolver to put beside it ("" = none)
     source = "Stanley & Miikkulainen 2002, Evolutionary Computation 10(2), sec. 4.2"

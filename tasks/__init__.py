@@ -1,7 +1,7 @@
 """The neuroyard task suite. Importing this package registers the built-in tasks."""
 
 from . import (
-    logic,  # noqa: F401  (registers xor-v1, parity-v1)
+    logic,  # noqa: F401  (registers xor-v2, parity-v2)
     pole,  # noqa: F401
 )
 from .base import SuccessCheck, Task, TaskSpec

@@ -31,7 +31,19 @@ from neuroyard.harness.settings import matches_default
 
 @dataclass(frozen=True)
 class TaskSpec:
-    """What a task is: interface, fitness, success criterion, default budget, sources."""
+    """What a task is: interface, fitness, success criterion, default budget, sources.
+
+    Fitness bounds: every evaluation's fitness lies in ``[min_fitness, max_fitness]``
+    (``max_fitness`` None: no upper bound, but always finite). A task may return a
+    non-finite fitness only to say that the network's output was non-finite; the harness
+    then records ``min_fitness``, the task's worst, and counts the evaluation in the
+    generation log. A finite fitness outside the bounds is a fault of the task.
+
+    For evolver authors: ``observations`` names the inputs in input-node order with their
+    meaning and scaling, ``actions`` the outputs in output-node order with how each is
+    turned into an action, ``output_rule`` how an output outside its meaningful range (or
+    non-finite) is treated.
+    """
 
     id: str
     inputs: int
@@ -41,9 +53,13 @@ class TaskSpec:
     default_budget: int
     sources: tuple[str, ...]
     max_fitness: float | None = None
+    min_fitness: float = 0.0
     behaviour_size: int | None = None
     needs_memory: bool = False
     settings: Mapping[str, Any] = field(default_factory=dict)
+    observations: tuple[str, ...] = ()
+    actions: tuple[str, ...] = ()
+    output_rule: str = ""
 
 
 @dataclass(frozen=True)
@@ -102,6 +118,7 @@ class Task(ABC):
             outputs=spec.outputs,
             budget=budget,
             max_fitness=spec.max_fitness,
+            min_fitness=spec.min_fitness,
             behaviour_size=spec.behaviour_size,
             needs_memory=spec.needs_memory,
             settings=dict(self.settings),

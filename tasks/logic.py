@@ -1,16 +1,26 @@
 """Boolean function tasks: XOR (Stanley & Miikkulainen 2002, sec. 4.2) and N-bit parity.
 
-Every input pattern (inputs 0 or 1) is presented to a freshly reset network; the output
-for the pattern is read after one step (feedforward) or after ``recurrent_steps`` steps
-with the inputs held (recurrent). With P patterns and outputs o_p, targets t_p:
+Every input pattern (each input 0.0 or 1.0, the bits in input-node order) is presented to
+a freshly reset network; the output for the pattern is read after one step (feedforward)
+or after ``recurrent_steps`` steps with the inputs held (recurrent). With P patterns,
+outputs o_p and targets t_p (the parity of the pattern's bits):
 
-    fitness = (P - sum_p |o_p - t_p|)^2          (maximum P^2; 16 for XOR)
+    fitness = (P - sum_p |clip(o_p, 0, 1) - t_p|)^2   (0 .. P^2; 16 for XOR)
     solved  = every o_p on the correct side of 0.5 (o_p > 0.5 where t_p = 1, else < 0.5)
+
+The published fitness assumes outputs in [0, 1] (a sigmoid output unit); clipping keeps its
+bounds for every activation, and leaves a [0, 1] output's fitness as published. A
+non-finite output on any pattern makes the fitness NaN, which the harness records as the
+worst fitness (0) and counts; such a network is never solved.
+
+Version 2 of both tasks: version 1 applied the formula to unclipped outputs, so an
+unbounded output unit could score far above the maximum (retired, see the registry).
 """
 
 from __future__ import annotations
 
 import itertools
+from typing import Any
 
 import numba
 import numpy as np
@@ -21,7 +31,7 @@ from neuroyard.harness.errors import TaskError
 from neuroyard.harness.evolver import Evaluation
 
 from .base import SuccessCheck, Task, TaskSpec
-from .registry import register
+from .registry import register, retire
 
 NEAT_2002 = (
     "Stanley, K. O. & Miikkulainen, R. (2002). Evolving neural networks through augmenting "
@@ -33,7 +43,9 @@ NEAT_2002 = (
 def score_patterns(
     net: CompiledNetwork, patterns: np.ndarray, targets: np.ndarray, steps: int
 ) -> tuple[float, bool]:
-    """(fitness, solved) of ``net`` on all patterns; one call evaluates the whole table."""
+    """(fitness, solved) of ``net`` on all patterns; one call evaluates the whole table.
+
+    Fitness is NaN (and solved False) when an output is not finite; see module docstring."""
     values, scratch = new_state(net)
     out = np.zeros(1, dtype=np.float64)
     error = 0.0
@@ -43,7 +55,9 @@ def score_patterns(
         for _ in range(steps):
             step(net, values, scratch, patterns[p], out)
         o = out[0]
-        error += abs(o - targets[p])
+        if not np.isfinite(o):
+            return np.nan, False
+        error += abs(min(1.0, max(0.0, o)) - targets[p])
         if targets[p] > 0.5:
             solved = solved and o > 0.5
         else:
@@ -65,6 +79,14 @@ def score_batch(
     return fitness
 
 
+FITNESS_RULE = "({n} - sum of |clip(output, 0, 1) - target| over the {n} patterns)^2, from 0 to {m}"
+OUTPUT_RULE = (
+    "the output is clipped to [0, 1] before its error is taken (so the maximum holds for "
+    "every activation); a non-finite output on any pattern gives the worst fitness, 0, and "
+    "is never solved"
+)
+
+
 class BooleanTask(Task):
     """A truth table learned by a network with one output; see module docstring."""
 
@@ -79,7 +101,7 @@ class BooleanTask(Task):
             raise TaskError(f"task {self.id}: setting 'recurrent_steps' must be at least 1")
 
     def truth_table(self) -> tuple[np.ndarray, np.ndarray]:
-        bits = self.spec.inputs
+        bits = self.bits
         patterns = np.array(list(itertools.product((0.0, 1.0), repeat=bits)), dtype=np.float64)
         targets = (patterns.sum(axis=1) % 2).astype(np.float64)
         return patterns, targets
@@ -100,30 +122,55 @@ class BooleanTask(Task):
     def success_test(self, net: CompiledNetwork, evaluation: Evaluation) -> SuccessCheck:
         return SuccessCheck(solved=bool(self._score(net)[1]), evaluations=1)
 
+    @property
+    def bits(self) -> int:
+        """Inputs of the truth table."""
+        raise NotImplementedError
+
+    def _interface(self) -> dict[str, Any]:
+        """The spec fields every truth-table task shares, from its number of bits."""
+        bits = self.bits
+        n = 2**bits
+        return {
+            "inputs": bits,
+            "outputs": 1,
+            "fitness": FITNESS_RULE.format(n=n, m=n * n),
+            "max_fitness": float(n * n),
+            "min_fitness": 0.0,
+            "observations": tuple(
+                f"bit {k + 1} of the pattern: 0.0 or 1.0 (no scaling)" for k in range(bits)
+            ),
+            "actions": (
+                "the parity of the pattern's bits: read after one step (feedforward) or after "
+                "recurrent_steps steps with the inputs held (recurrent), from a reset network; "
+                "above 0.5 means 1, below 0.5 means 0",
+            ),
+            "output_rule": OUTPUT_RULE,
+            "settings": dict(self.settings),
+        }
+
 
 @register
 class Xor(BooleanTask):
-    id = "xor-v1"
+    id = "xor-v2"
+
+    bits = 2
 
     @property
     def spec(self) -> TaskSpec:
         return TaskSpec(
             id=self.id,
-            inputs=2,
-            outputs=1,
-            fitness="(4 - sum of |output - target| over the 4 patterns)^2, maximum 16",
             success="every output on the correct side of 0.5 (from memory: the rounding rule "
-            "of the authors' reference setup; LITERATURE.md sec. 1.2)",
+            "of the authors' reference setup)",
             default_budget=100_000,
             sources=(NEAT_2002,),
-            max_fitness=16.0,
-            settings=dict(self.settings),
+            **self._interface(),
         )
 
 
 @register
 class Parity(BooleanTask):
-    id = "parity-v1"
+    id = "parity-v2"
     defaults = {"bits": 3, "recurrent_steps": 5}
 
     def check_settings(self) -> None:
@@ -134,19 +181,31 @@ class Parity(BooleanTask):
             )
 
     @property
+    def bits(self) -> int:
+        return self.settings["bits"]
+
+    @property
     def spec(self) -> TaskSpec:
-        n = 2 ** self.settings["bits"]
         return TaskSpec(
             id=self.id,
-            inputs=self.settings["bits"],
-            outputs=1,
-            fitness=f"({n} - sum of |output - target| over the {n} patterns)^2, maximum {n * n}",
             success="every output on the correct side of 0.5",
             default_budget=200_000,
             sources=(
-                "N-bit parity generalises XOR; no NEAT-family reference figure is known "
-                "(LITERATURE.md sec. 6), so it is an internal scaling test",
+                "N-bit parity generalises XOR; no NEAT-family reference figure is known, so it "
+                "is an internal scaling test",
             ),
-            max_fitness=float(n * n),
-            settings=dict(self.settings),
+            **self._interface(),
         )
+
+
+RETIRED = {
+    "xor-v1": "xor-v2",
+    "parity-v1": "parity-v2",
+}
+RETIRED_REASON = (
+    "version 1 scored unclipped outputs, so a network with an unbounded output unit could "
+    "score above the stated maximum; version 2 clips outputs to [0, 1] (the same fitness "
+    "for outputs in [0, 1])"
+)
+for _old, _new in RETIRED.items():
+    retire(_old, _new, RETIRED_REASON)

@@ -18,6 +18,7 @@ from .base import Task, TaskSpec
 ENTRY_POINT_GROUP = "neuroyard.tasks"
 _ID = re.compile(r"^[a-z0-9][a-z0-9-]*-v\d+$")
 _REGISTRY: dict[str, type[Task]] = {}
+_RETIRED: dict[str, tuple[str, str]] = {}  # old id -> (successor, why it was retired)
 _plugins_loaded = False
 
 
@@ -29,6 +30,17 @@ def register(cls: type[Task]) -> type[Task]:
         raise TaskError(f"task id {cls.id!r} is registered twice")
     _REGISTRY[cls.id] = cls
     return cls
+
+
+def retire(old_id: str, successor: str, reason: str) -> None:
+    """Mark ``old_id`` as retired: building it names ``successor`` and says why. Stored
+    results under the old id stay readable; only new runs need the successor."""
+    _RETIRED[old_id] = (successor, reason)
+
+
+def retired() -> dict[str, tuple[str, str]]:
+    """Retired ids mapped to (successor id, reason)."""
+    return dict(_RETIRED)
 
 
 def _load_plugins() -> None:
@@ -47,6 +59,9 @@ def task_ids() -> list[str]:
 
 def task_class(task_id: str) -> type[Task]:
     _load_plugins()
+    if task_id in _RETIRED and task_id not in _REGISTRY:
+        successor, reason = _RETIRED[task_id]
+        raise TaskError(f"task {task_id!r} is retired, use {successor!r}: {reason}")
     try:
         return _REGISTRY[task_id]
     except KeyError:

@@ -16,12 +16,17 @@ def constant_network(weight: float = 0.0, activation: str = "neat_sigmoid") -> N
 
 
 class Constant:
-    """Asks ``batch`` copies of a constant network forever; counts what it is told."""
+    """Asks ``batch`` copies of a constant network forever; counts what it is told and
+    reports the counts as stats (``stats()`` is read after ``tell()``), and the outcome it
+    was given in ``stop()`` as ``Constant.outcomes`` (this process only)."""
+
+    outcomes: list = []
 
     def __init__(self, batch: int = 7) -> None:
         self.batch = batch
         self.asked = 0
         self.told = 0
+        self.tells = 0
 
     def start(self, problem, seed):
         self.problem = problem
@@ -31,8 +36,15 @@ class Constant:
         return [constant_network(0.1 * k) for k in range(self.batch)]
 
     def tell(self, evaluations):
-        assert len(evaluations) == self.batch
+        assert 1 <= len(evaluations) <= self.batch
         self.told += len(evaluations)
+        self.tells += 1
+
+    def stats(self):
+        return {"asked": self.asked, "told": self.told, "tells": self.tells}
+
+    def stop(self, outcome):
+        Constant.outcomes.append(outcome)
 
 
 class RaisesIn:

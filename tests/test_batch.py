@@ -108,7 +108,7 @@ def test_xor_batch_kernel_equals_one_network_at_a_time():
     rng = np.random.default_rng(3)
     nets = [random_network(rng, bool(k % 2)) for k in range(60)]
     nets = [n for n in nets if n.n_outputs == 1]
-    task: Xor = make("xor-v1")
+    task: Xor = make("xor-v2")
     batch = compile_batch(nets, 2, 1)
     together = [e.fitness for e in task.evaluate_batch(batch)]
     alone = [task.evaluate(batch.network(i)).fitness for i in range(batch.size)]

@@ -42,7 +42,7 @@ def test_two_stores_same_campaign_identical_exports(tmp_path, capsys):
             "--evolver",
             "rwg",
             "--task",
-            "xor-v1",
+            "xor-v2",
             "--runs",
             "20",
             "--seed",
@@ -75,9 +75,9 @@ def test_report_json_keys_and_text(tmp_path, capsys):
             "--evolver",
             "rwg",
             "--task",
-            "xor-v1",
+            "xor-v2",
             "--task",
-            "parity-v1",
+            "parity-v2",
             "--runs",
             "3",
             "--budget",
@@ -101,10 +101,10 @@ def test_tasks_listing(capsys):
     code, out, _ = run_cli(capsys, "tasks", "--format", "json")
     tasks = {t["id"]: t for t in json.loads(out)}
     assert code == 0
-    assert tasks["xor-v1"]["inputs"] == 2 and tasks["xor-v1"]["outputs"] == 1
-    assert any("Stanley" in s for s in tasks["xor-v1"]["sources"])
+    assert tasks["xor-v2"]["inputs"] == 2 and tasks["xor-v2"]["outputs"] == 1
+    assert any("Stanley" in s for s in tasks["xor-v2"]["sources"])
     code, out, _ = run_cli(capsys, "tasks")
-    assert "parity-v1" in out and "solved:" in out
+    assert "parity-v2" in out and "solved:" in out
 
 
 def test_evaluate_a_network_file(tmp_path, capsys):
@@ -126,7 +126,7 @@ def test_evaluate_a_network_file(tmp_path, capsys):
     )
     path = tmp_path / "xor.json"
     path.write_text(dumps(Network(nodes, conns)))
-    code, out, _ = run_cli(capsys, "evaluate", str(path), "--task", "xor-v1")
+    code, out, _ = run_cli(capsys, "evaluate", str(path), "--task", "xor-v2")
     result = json.loads(out)
     assert code == 0 and result["solved"] is True and result["hidden_nodes"] == 1
 
@@ -138,7 +138,7 @@ def test_evaluate_a_network_file(tmp_path, capsys):
         (["run", "--evolver", "nope", "--runs", "1"], "unknown evolver 'nope'"),
         (["run", "--runs", "zero"], "argument --runs: expected a whole number, got 'zero'"),
         (["run", "--runs", "0"], "argument --runs: must be at least 1"),
-        (["run", "--setting", "bits=x", "--task", "parity-v1"], "setting 'bits' must be int"),
+        (["run", "--setting", "bits=x", "--task", "parity-v2"], "setting 'bits' must be int"),
         (
             ["run", "--param", "batch_size=0", "--evolver", "rwg"],
             "bad configuration: batch_size must be >= 1",
@@ -149,7 +149,7 @@ def test_evaluate_a_network_file(tmp_path, capsys):
         ),
         (["report", "--format", "pdf"], "argument --format: invalid choice: 'pdf'"),
         (
-            ["evaluate", "missing.json", "--task", "xor-v1"],
+            ["evaluate", "missing.json", "--task", "xor-v2"],
             "network file missing.json: cannot read it",
         ),
         (["frobnicate"], "invalid choice: 'frobnicate'"),
@@ -175,10 +175,10 @@ def test_invalid_network_file_error_names_the_offender(tmp_path, capsys):
         "connections": [{"source": 0, "target": 7, "weight": 1.0}],
     }
     path.write_text(json.dumps(doc))
-    code, _, err = run_cli(capsys, "evaluate", str(path), "--task", "xor-v1")
+    code, _, err = run_cli(capsys, "evaluate", str(path), "--task", "xor-v2")
     assert code == 2 and "connection 0 (0 -> 7): target node 7 does not exist" in err
     path.write_text("{not json")
-    code, _, err = run_cli(capsys, "evaluate", str(path), "--task", "xor-v1")
+    code, _, err = run_cli(capsys, "evaluate", str(path), "--task", "xor-v2")
     assert code == 2 and "not valid JSON" in err and err.count("\n") == 1
 
 
@@ -190,4 +190,4 @@ def test_console_script_entry_point_runs(tmp_path):
         check=True,
         cwd=tmp_path,
     )
-    assert "xor-v1" in out.stdout
+    assert "xor-v2" in out.stdout

@@ -1,4 +1,4 @@
-"""The logic tasks xor-v1 and parity-v1: truth tables, fitness, success test, settings.
+"""The logic tasks xor-v2 and parity-v2: truth tables, fitness, success test, settings.
 
 XOR fitness and success rule: Stanley & Miikkulainen 2002, sec. 4.2 (fitness
 (4 - sum |output - target|)^2 over the 4 patterns; success = every output on the correct
@@ -67,7 +67,7 @@ def score(task_id: str, network: Network, **settings) -> tuple[float, bool]:
 
 
 def test_xor_truth_table() -> None:
-    task = tasks.make("xor-v1")
+    task = tasks.make("xor-v2")
     rows = {
         tuple(int(v) for v in p): int(t) for p, t in zip(task.patterns, task.targets, strict=True)
     }
@@ -79,7 +79,7 @@ def test_xor_truth_table() -> None:
 def test_hand_built_xor_network_is_solved_with_fitness_near_16() -> None:
     net = threshold_network(2)
     assert net.hidden_nodes == 2
-    fitness, solved = score("xor-v1", net)
+    fitness, solved = score("xor-v2", net)
     assert solved
     assert fitness == pytest.approx(16.0, abs=1e-8)
 
@@ -97,9 +97,9 @@ def test_wrong_networks_are_not_solved(
 ) -> None:
     # No hidden nodes: out = neat_sigmoid(w1 x1 + w2 x2 + w_bias).
     net = fully_connected(2, 1, weights)
-    fitness, solved = score("xor-v1", net)
+    fitness, solved = score("xor-v2", net)
     assert not solved
-    task = tasks.make("xor-v1")
+    task = tasks.make("xor-v2")
     outputs = [reference_output(net, p) for p in task.patterns]
     wrong = sum(
         (o > 0.5) != (t > 0.5) or o == 0.5 for o, t in zip(outputs, task.targets, strict=True)
@@ -116,7 +116,7 @@ def test_xor_fitness_formula_on_hand_computed_outputs() -> None:
     conns = (Connection(0, 3, 0.5), Connection(1, 3, 0.25), Connection(2, 3, 0.25))
     outputs = {(0, 0): 0.25, (0, 1): 0.5, (1, 0): 0.75, (1, 1): 1.0}
     error = sum(abs(outputs[p] - t) for p, t in XOR_TABLE.items())  # 0.25+0.5+0.25+1 = 2
-    fitness, solved = score("xor-v1", Network(nodes, conns))
+    fitness, solved = score("xor-v2", Network(nodes, conns))
     # (4 - sum |error|)^2: Stanley & Miikkulainen 2002, sec. 4.2
     assert fitness == (4.0 - error) ** 2 == 4.0
     assert not solved  # 0.5 for (0, 1) is not on the correct side of 0.5
@@ -127,7 +127,7 @@ def test_xor_fitness_formula_on_sigmoid_outputs() -> None:
     nodes = (Node(0, "input"), Node(1, "input"), Node(2, "bias"), Node(3, "output", "sigmoid"))
     conns = (Connection(0, 3, 1.0), Connection(1, 3, -1.0), Connection(2, 3, 0.5))
     error = sum(abs(scipy.special.expit(a - b + 0.5) - t) for (a, b), t in XOR_TABLE.items())
-    fitness, solved = score("xor-v1", Network(nodes, conns))
+    fitness, solved = score("xor-v2", Network(nodes, conns))
     # (4 - sum |error|)^2: Stanley & Miikkulainen 2002, sec. 4.2
     assert fitness == pytest.approx((4.0 - error) ** 2, rel=1e-14)
     assert not solved
@@ -137,12 +137,12 @@ def test_recurrent_xor_needs_enough_steps() -> None:
     # In recurrent mode the output sees the inputs two steps after they are set
     # (input -> hidden -> output), so one step per pattern cannot solve XOR.
     net = threshold_network(2, mode="recurrent")
-    fitness, solved = score("xor-v1", net, recurrent_steps=1)
+    fitness, solved = score("xor-v2", net, recurrent_steps=1)
     assert not solved
     # every output is neat_sigmoid(-5) ~ 0: errors ~ 0, 1, 1, 0
     assert fitness == pytest.approx(4.0, abs=1e-8)
     for steps in (2, 5):
-        fitness, solved = score("xor-v1", net, recurrent_steps=steps)
+        fitness, solved = score("xor-v2", net, recurrent_steps=steps)
         assert solved and fitness == pytest.approx(16.0, abs=1e-8)
 
 
@@ -150,7 +150,7 @@ def test_recurrent_xor_needs_enough_steps() -> None:
 
 
 def test_parity_3_truth_table() -> None:
-    task = tasks.make("parity-v1", bits=3)
+    task = tasks.make("parity-v2", bits=3)
     assert task.patterns.shape == (8, 3)
     rows = {
         tuple(int(v) for v in p): int(t) for p, t in zip(task.patterns, task.targets, strict=True)
@@ -160,26 +160,26 @@ def test_parity_3_truth_table() -> None:
     }
     assert rows == expected
     assert task.spec.max_fitness == 64.0
-    assert tasks.make("parity-v1").settings["bits"] == 3  # the default
+    assert tasks.make("parity-v2").settings["bits"] == 3  # the default
 
 
 @pytest.mark.parametrize("bits", [2, 3, 4, 5])
 def test_hand_built_parity_network_is_solved(bits: int) -> None:
-    fitness, solved = score("parity-v1", threshold_network(bits), bits=bits)
+    fitness, solved = score("parity-v2", threshold_network(bits), bits=bits)
     assert solved
     assert fitness == pytest.approx(float(4**bits), abs=1e-6)
 
 
 def test_parity_2_scores_like_xor() -> None:
     net = fully_connected(2, 1, np.linspace(-1.0, 1.0, 9), hidden=2)
-    assert score("parity-v1", net, bits=2) == score("xor-v1", net)
+    assert score("parity-v2", net, bits=2) == score("xor-v2", net)
 
 
 def test_parity_3_ignoring_one_input_is_not_solved() -> None:
     net = threshold_network(2)
     # the XOR of the first two bits, with a third input left unconnected
     nodes = (Node(100, "input"),) + net.nodes
-    fitness, solved = score("parity-v1", Network(nodes, net.connections), bits=3)
+    fitness, solved = score("parity-v2", Network(nodes, net.connections), bits=3)
     assert not solved
     assert fitness == pytest.approx(16.0, abs=1e-6)  # right on 4 of 8 patterns: (8 - 4)^2
 
@@ -190,15 +190,15 @@ def test_parity_3_ignoring_one_input_is_not_solved() -> None:
 @pytest.mark.parametrize(
     ("task_id", "settings", "message"),
     [
-        ("xor-v1", {"bits": 3}, "unknown setting 'bits'"),
-        ("parity-v1", {"bitz": 3}, "unknown setting 'bitz'"),
-        ("parity-v1", {"bits": "3"}, "setting 'bits' must be int"),
-        ("parity-v1", {"bits": 3.0}, "setting 'bits' must be int"),
-        ("parity-v1", {"bits": True}, "setting 'bits' must be int"),
-        ("parity-v1", {"bits": 1}, "setting 'bits' must be 2..12"),
-        ("parity-v1", {"bits": 13}, "setting 'bits' must be 2..12"),
-        ("xor-v1", {"recurrent_steps": 0}, "setting 'recurrent_steps' must be at least 1"),
-        ("xor-v1", {"recurrent_steps": 2.5}, "setting 'recurrent_steps' must be int"),
+        ("xor-v2", {"bits": 3}, "unknown setting 'bits'"),
+        ("parity-v2", {"bitz": 3}, "unknown setting 'bitz'"),
+        ("parity-v2", {"bits": "3"}, "setting 'bits' must be int"),
+        ("parity-v2", {"bits": 3.0}, "setting 'bits' must be int"),
+        ("parity-v2", {"bits": True}, "setting 'bits' must be int"),
+        ("parity-v2", {"bits": 1}, "setting 'bits' must be 2..12"),
+        ("parity-v2", {"bits": 13}, "setting 'bits' must be 2..12"),
+        ("xor-v2", {"recurrent_steps": 0}, "setting 'recurrent_steps' must be at least 1"),
+        ("xor-v2", {"recurrent_steps": 2.5}, "setting 'recurrent_steps' must be int"),
     ],
 )
 def test_bad_settings_name_the_key(task_id: str, settings: dict, message: str) -> None:

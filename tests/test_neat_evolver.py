@@ -18,7 +18,7 @@ from neuroyard.tasks import make
 
 def evolve(generations: int, seed: int = 0, **config) -> tuple[NeatEvolver, list[dict]]:
     """Run NEAT on XOR for a few generations; return the evolver and its stats per generation."""
-    task = make("xor-v1")
+    task = make("xor-v2")
     evolver = NeatEvolver(**config)
     evolver.start(task.problem(100_000), seed)
     history = []
@@ -33,7 +33,7 @@ def evolve(generations: int, seed: int = 0, **config) -> tuple[NeatEvolver, list
 
 def test_first_generation_is_the_minimal_topology():
     evolver = NeatEvolver(population_size=20)
-    evolver.start(make("xor-v1").problem(1000), seed=1)
+    evolver.start(make("xor-v2").problem(1000), seed=1)
     batch = evolver.ask()
     assert len(batch) == 20
     for net in batch:
@@ -56,17 +56,27 @@ def test_population_size_is_kept_and_stats_are_reported():
 
 def test_tell_checks_its_input():
     evolver = NeatEvolver(population_size=10)
-    evolver.start(make("xor-v1").problem(1000), seed=1)
+    evolver.start(make("xor-v2").problem(1000), seed=1)
     evolver.ask()
-    with pytest.raises(ValueError, match="9 evaluations"):
-        evolver.tell([Evaluation(1.0)] * 9)
+    with pytest.raises(ValueError, match="11 evaluations"):
+        evolver.tell([Evaluation(1.0)] * 11)
     with pytest.raises(ValueError, match="not finite"):
         evolver.tell([Evaluation(float("nan"))] * 10)
 
 
+def test_a_batch_cut_by_the_budget_is_told_and_no_generation_is_bred():
+    # the harness's contract: the last batch of a run may be cut to an evaluated prefix
+    evolver = NeatEvolver(population_size=10)
+    evolver.start(make("xor-v2").problem(1000), seed=1)
+    batch = evolver.ask()
+    evolver.tell([Evaluation(2.0)] * 4)
+    assert [g.fitness for g in evolver.population[:4]] == [2.0] * 4
+    assert evolver.generation == 0 and evolver.ask() is batch
+
+
 def test_champion_of_a_large_species_is_copied_unchanged():
     # paper sec. 4.1: the champion of each species with more than five networks is copied
-    task = make("xor-v1")
+    task = make("xor-v2")
     evolver = NeatEvolver(population_size=30, speciation=False)
     evolver.start(task.problem(10_000), seed=3)
     batch = evolver.ask()
@@ -94,7 +104,7 @@ def test_no_crossover_still_evolves():
 
 def test_random_initial_topology_varies_between_genomes():
     evolver = NeatEvolver(population_size=40, initial_topology="random")
-    evolver.start(make("xor-v1").problem(1000), seed=5)
+    evolver.start(make("xor-v2").problem(1000), seed=5)
     batch = evolver.ask()
     assert len({(n.hidden_nodes, n.enabled_connections) for n in batch}) > 5
     for net in batch:

@@ -17,7 +17,7 @@ BUDGET = 30_000  # issue 3 acceptance: 10 fixed-seed runs solved within 30,000 e
 
 def xor_run(run_index: int, budget: int = BUDGET, **config):
     spec = RunSpec(
-        EvolverSpec("neat", config), "xor-v1", run_index, campaign_seed=2002, budget=budget
+        EvolverSpec("neat", config), "xor-v2", run_index, campaign_seed=2002, budget=budget
     )
     return run_one(spec)
 

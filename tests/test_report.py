@@ -27,7 +27,7 @@ def record(i: int, solved: bool, evaluations: int, population: int = 150, **extr
         evolver="neat",
         config={},
         config_hash="c0ffee000000",
-        task="xor-v1",
+        task="xor-v2",
         task_settings={"recurrent_steps": 5},
         run_index=i,
         campaign_seed=1,
@@ -72,7 +72,7 @@ def test_summary_takes_sizes_and_evaluations_over_solved_runs():
 
 
 def test_published_figures_stand_beside_measured_values():
-    published = figures_for("xor-v1", "NEAT")[0].values["mean_evaluations"]
+    published = figures_for("xor-v2", "NEAT")[0].values["mean_evaluations"]
     rows = report.build([record(0, True, 3000), record(1, True, 5000)])
     (row,) = rows
     means = [c for c in row.comparisons if c.metric == "mean_evaluations"]
@@ -150,7 +150,7 @@ def test_fisher_p_value_matches_the_hypergeometric_sum():
 
 
 def test_report_tests_measured_against_published_where_the_paper_allows():
-    fig = figures_for("xor-v1", "NEAT")[0].values  # 100 runs, 0 failures, mean and sd given
+    fig = figures_for("xor-v2", "NEAT")[0].values  # 100 runs, 0 failures, mean and sd given
     evaluations = [3000, 4500, 6000, 7500]
     rows = report.build([record(i, True, e) for i, e in enumerate(evaluations)])
     by_metric = {c.metric: c for c in rows[0].comparisons}

@@ -26,7 +26,7 @@ def counted_xor(monkeypatch):
 
     The runner's once-per-process kernel warm-up (on its own task instance, not part of any
     run) is done before counting starts."""
-    load_kernels("xor-v1", {})
+    load_kernels("xor-v2", {})
     calls = {"evaluate": 0, "success": 0}
     evaluate, success = Xor.evaluate_batch, Xor.success_test
 
@@ -45,7 +45,7 @@ def counted_xor(monkeypatch):
 
 
 def spec(name, budget=None, run_index=0, seed=1, **config):
-    return RunSpec(EvolverSpec(name, config), "xor-v1", run_index, seed, budget)
+    return RunSpec(EvolverSpec(name, config), "xor-v2", run_index, seed, budget)
 
 
 def test_budget_is_exact_and_every_evaluation_counted(counted_xor):
@@ -61,6 +61,34 @@ def test_budget_is_exact_and_every_evaluation_counted(counted_xor):
     assert [g.champion_test["rank"] for g in record.log] == [0, 1, 2]
 
 
+def test_tell_gets_every_batch_and_stats_are_read_after_it():
+    # budget 20 in batches of 7: the last batch is cut to 6, and tell() gets those 6
+    from plugins_for_tests import Constant
+
+    Constant.outcomes.clear()
+    record = run_one(spec("plugins_for_tests:Constant", budget=20, batch=7))
+    assert [g.stats for g in record.log] == [
+        {"asked": 7.0, "told": 7.0, "tells": 1.0},
+        {"asked": 14.0, "told": 14.0, "tells": 2.0},
+        {"asked": 21.0, "told": 20.0, "tells": 3.0},
+    ]
+    (outcome,) = Constant.outcomes
+    assert (outcome.status, outcome.generations, outcome.evaluations) == ("unsolved", 3, 20)
+    assert outcome.failure is None
+
+
+def test_the_solving_batch_is_told_and_stop_gets_the_outcome(monkeypatch):
+    from plugins_for_tests import Constant
+
+    load_kernels("xor-v2", {})
+    monkeypatch.setattr(Xor, "success_test", lambda self, net, ev: SuccessCheck(True, 1))
+    Constant.outcomes.clear()
+    record = run_one(spec("plugins_for_tests:Constant", budget=100, batch=3))
+    assert record.status == "solved" and record.generations == 1
+    assert record.log[0].stats == {"asked": 3.0, "told": 3.0, "tells": 1.0}
+    assert [o.status for o in Constant.outcomes] == ["solved"]
+
+
 def test_a_network_is_success_tested_at_most_once_per_run(counted_xor):
     # two networks asked again and again: generations 0 and 1 test them, generation 2 none
     record = run_one(spec("plugins_for_tests:Constant", budget=6, batch=2))
@@ -73,7 +101,7 @@ def test_the_solution_is_the_network_that_passed_even_below_the_fittest(monkeypa
     # two networks asked again and again; the test fails the first network tested and
     # passes any other. Generation 0 tests the fittest, generation 1 the other one, which
     # passes: it is the recorded solution, with its rank
-    load_kernels("xor-v1", {})
+    load_kernels("xor-v2", {})
     tested: list[float] = []
 
     def success(self, net, evaluation):
@@ -113,7 +141,7 @@ def test_log_and_versions_are_recorded():
 
 def test_kernel_loading_is_timed_apart_once_per_process_and_leaves_results_unchanged():
     # a task setting no other test uses, so this process has not warmed this task up yet
-    run = RunSpec(EvolverSpec("rwg", {}), "xor-v1", 2, 1, 500, {"recurrent_steps": 7})
+    run = RunSpec(EvolverSpec("rwg", {}), "xor-v2", 2, 1, 500, {"recurrent_steps": 7})
     first, again = run_one(run), run_one(run)
     assert first.timing["kernel_load"] > 0.0 and again.timing["kernel_load"] == 0.0
     for record in (first, again):
@@ -132,14 +160,14 @@ def test_same_spec_same_result_different_index_different_seed():
 
 
 def test_seeds_depend_only_on_the_run_key():
-    s = seeds.evolver_seed(1, "rwg", "xor-v1", 3)
-    assert s == seeds.evolver_seed(1, "rwg", "xor-v1", 3)
-    assert s != seeds.evolver_seed(2, "rwg", "xor-v1", 3)
-    assert s != seeds.evolver_seed(1, "neat", "xor-v1", 3)
-    assert s != seeds.evolver_seed(1, "rwg", "parity-v1", 3)
+    s = seeds.evolver_seed(1, "rwg", "xor-v2", 3)
+    assert s == seeds.evolver_seed(1, "rwg", "xor-v2", 3)
+    assert s != seeds.evolver_seed(2, "rwg", "xor-v2", 3)
+    assert s != seeds.evolver_seed(1, "neat", "xor-v2", 3)
+    assert s != seeds.evolver_seed(1, "rwg", "parity-v2", 3)
     # the task instance is shared by all evolvers in run i (paired comparisons)
-    assert seeds.task_seed(1, "xor-v1", 3) == seeds.task_seed(1, "xor-v1", 3)
-    assert seeds.task_seed(1, "xor-v1", 3) != seeds.task_seed(1, "xor-v1", 4)
+    assert seeds.task_seed(1, "xor-v2", 3) == seeds.task_seed(1, "xor-v2", 3)
+    assert seeds.task_seed(1, "xor-v2", 3) != seeds.task_seed(1, "xor-v2", 4)
     assert 0 <= s < 2**63
 
 
@@ -147,9 +175,15 @@ def test_seeds_depend_only_on_the_run_key():
     ("config", "reason"),
     [
         ({"method": "start"}, "start() raised RuntimeError: boom in start"),
-        ({"method": "ask", "when": 2}, "ask() raised RuntimeError: boom in ask"),
-        ({"method": "tell", "when": 1}, "tell() raised RuntimeError: boom in tell"),
-        ({"method": "stats", "when": 1}, "stats() raised RuntimeError: boom in stats"),
+        ({"method": "ask", "when": 2}, "ask() in generation 2 raised RuntimeError: boom in ask"),
+        (
+            {"method": "tell", "when": 1},
+            "tell() in generation 1 raised RuntimeError: boom in tell",
+        ),
+        (
+            {"method": "stats", "when": 1},
+            "stats() in generation 0 raised RuntimeError: boom in stats",
+        ),
     ],
 )
 def test_an_evolver_that_raises_fails_its_run(config, reason):
@@ -181,4 +215,5 @@ def test_an_evolver_that_returns_garbage_fails_its_run(what, reason):
 
 def test_an_evolver_that_calls_exit_fails_its_run_only():
     record = run_one(spec("plugins_for_tests:ExitsInAsk", budget=100))
-    assert record.status == "failed" and record.failure == "ask() raised SystemExit: 3"
+    assert record.status == "failed"
+    assert record.failure == "ask() in generation 0 raised SystemExit: 3"

@@ -18,18 +18,18 @@ from neuroyard.harness.store import ResultStore
 
 def plan(runs=4, seed=3):
     return CampaignPlan(
-        [EvolverSpec("rwg", {"batch_size": 50})], [TaskChoice("xor-v1")], runs, seed, 5000
+        [EvolverSpec("rwg", {"batch_size": 50})], [TaskChoice("xor-v2")], runs, seed, 5000
     )
 
 
 def test_round_trip_and_resume_skips_finished_runs(tmp_path):
     path = tmp_path / "r.db"
     with ResultStore(path) as store:
-        assert execute(plan(runs=3), store, progress=False) == (3, 0)
+        assert execute(plan(runs=3), store, progress=False)[:2] == (3, 0)
         first = [r.to_dict() for r in store.records()]
     with ResultStore(path) as store:
         # the same campaign with more runs: only the new ones run
-        assert execute(plan(runs=5), store, progress=False) == (2, 3)
+        assert execute(plan(runs=5), store, progress=False)[:2] == (2, 3)
         again = [r.to_dict() for r in store.records()]
     assert again[:3] == first
     assert len(again) == 5
@@ -54,7 +54,7 @@ def test_store_left_by_a_killed_process_keeps_every_finished_run(tmp_path):
         "--evolver",
         "rwg",
         "--task",
-        "xor-v1",
+        "xor-v2",
         "--runs",
         "100",
         "--seed",
@@ -86,9 +86,9 @@ def test_store_left_by_a_killed_process_keeps_every_finished_run(tmp_path):
         assert len(kept) >= stored
         assert all(len(r.log) == r.generations for r in kept)  # no half-written run
         resumed = CampaignPlan(
-            [EvolverSpec("rwg", {"batch_size": 5})], [TaskChoice("xor-v1")], 100, 9, 300
+            [EvolverSpec("rwg", {"batch_size": 5})], [TaskChoice("xor-v2")], 100, 9, 300
         )
-        done, skipped = execute(resumed, store, progress=False)
+        done, skipped, *_ = execute(resumed, store, progress=False)
         assert skipped == len(kept) and done + skipped == 100
         assert sorted(r.run_index for r in store.records()) == list(range(100))
 
@@ -103,57 +103,62 @@ def test_bad_store_files_give_clear_errors(tmp_path):
     with pytest.raises(StoreError, match="not a neuroyard store"):
         ResultStore(other)
     with pytest.raises(StoreError, match="no such file"):
-        ResultStore(tmp_path / "missing.db", create=False)
+        ResultStore(tmp_path / "missing.db", write=False)
     with pytest.raises(StoreError, match="is a folder"):
         ResultStore(tmp_path)
     # the failed opens changed nothing
     assert junk.read_text().startswith("this is not a database")
 
 
-def make_version_1(path):
-    """Turn a current store into the version-1 layout (no champion_test column)."""
+def make_version(path, version):
+    """Turn a current store into the layout of schema ``version`` (1 or 2): version 2 had no
+    ``non_finite`` column and no claims table, version 1 also no ``champion_test`` column."""
     db = sqlite3.connect(path)
-    db.execute("ALTER TABLE generations DROP COLUMN champion_test")
-    db.execute("UPDATE meta SET value='1' WHERE key='schema_version'")
+    db.execute("ALTER TABLE generations DROP COLUMN non_finite")
+    db.execute("DROP TABLE claims")
+    if version == 1:
+        db.execute("ALTER TABLE generations DROP COLUMN champion_test")
+    db.execute("UPDATE meta SET value=? WHERE key='schema_version'", (str(version),))
     db.commit()
     db.close()
 
 
-def test_a_version_1_store_is_read_and_upgraded_by_the_first_write(tmp_path):
-    path = tmp_path / "v1.db"
+@pytest.mark.parametrize("version", [1, 2])
+def test_an_older_store_is_read_and_upgraded_by_the_first_write(tmp_path, version):
+    path = tmp_path / f"v{version}.db"
     with ResultStore(path) as store:
         execute(plan(runs=2), store, progress=False)
         before = [r.to_dict() for r in store.records()]
-    make_version_1(path)
-    with ResultStore(path, create=False) as store:
+    make_version(path, version)
+    with ResultStore(path, write=False) as store:
         old = [r.to_dict() for r in store.records()]
-    assert store.version == 1
-    # version 1 logged no champion tests; everything else reads back unchanged
-    assert all(g["champion_test"] == {} for r in old for g in r["log"])
-    assert old == [{**r, "log": [{**g, "champion_test": {}} for g in r["log"]]} for r in before]
+    assert store.version == version
+    # the missing columns read as their defaults; everything else reads back unchanged
+    missing = {"non_finite": 0, **({"champion_test": {}} if version == 1 else {})}
+    assert old == [{**r, "log": [{**g, **missing} for g in r["log"]]} for r in before]
     with ResultStore(path) as store:
-        assert execute(plan(runs=3), store, progress=False) == (1, 2)
-        assert store.version == 2
+        assert execute(plan(runs=3), store, progress=False)[:2] == (1, 2)
+        assert store.version == 3
         after = [r.to_dict() for r in store.records()]
     assert after[:2] == old  # the upgrade kept the old runs as they were
     assert len(after) == 3 and len(after[2]["log"]) == after[2]["generations"]
-    version = sqlite3.connect(path).execute("SELECT value FROM meta").fetchone()[0]
-    assert version == "2"
+    stored = sqlite3.connect(path).execute("SELECT value FROM meta").fetchone()[0]
+    assert stored == "3"
 
 
-def test_a_failed_upgrade_leaves_the_version_1_store_as_it_was(tmp_path):
+def test_a_failed_upgrade_leaves_the_older_store_as_it_was(tmp_path, monkeypatch):
     path = tmp_path / "v1.db"
     with ResultStore(path) as store:
         execute(plan(runs=1), store, progress=False)
-    make_version_1(path)
+    make_version(path, 1)
     with ResultStore(path) as store:
         record = next(store.records())
-        (key,) = store.finished_keys()
-        # the same run key again: the insert fails after the upgrade statements ran
-        with pytest.raises(sqlite3.IntegrityError):
-            store.save(key, 1, record)
+        # the log write fails after the upgrade statements ran in the same transaction
+        record.log[0].stats = {"x": object()}
+        with pytest.raises(TypeError):
+            store.save("another-key", 1, record)
         assert store.version == 1
     with ResultStore(path) as store:
         assert store.version == 1 and len(list(store.records())) == 1
     columns = [c[1] for c in sqlite3.connect(path).execute("PRAGMA table_info(generations)")]
-    assert "champion_test" not in columns
+    assert "champion_test" not in columns and "non_finite" not in columns

@@ -57,17 +57,22 @@ class NeatEvolver:
         return self._batch
 
     def tell(self, evaluations: Sequence[Evaluation]) -> None:
-        """Fitness of the last batch, in order; breeds and speciates the next generation."""
-        if len(evaluations) != len(self.population):
+        """Fitness of the last batch, in order; breeds and speciates the next generation.
+
+        Fewer evaluations than genomes come only with the batch the harness cut at the end
+        of the budget: their fitness is recorded and no further generation is bred (none
+        would be evaluated)."""
+        if len(evaluations) > len(self.population):
             raise ValueError(
                 f"NeatEvolver: tell() got {len(evaluations)} evaluations "
                 f"for a generation of {len(self.population)}"
             )
-        for genome, result in zip(self.population, evaluations, strict=True):
+        for genome, result in zip(self.population, evaluations, strict=False):
             if not math.isfinite(result.fitness):
                 raise ValueError(f"NeatEvolver: fitness {result.fitness!r} is not finite")
             genome.fitness = float(result.fitness)
-        self._next_generation()
+        if len(evaluations) == len(self.population):
+            self._next_generation()
 
     def settings(self) -> dict[str, Any]:
         """The effective configuration, defaults included (recorded with every run)."""

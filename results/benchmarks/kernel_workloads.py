@@ -149,13 +149,13 @@ def reference_fitness(ref: ReferenceNet, patterns: Sequence[Sequence[float]], ta
 def xor_batch(compile_in_timing: bool) -> Workload:
     """150 XOR networks evaluated the way the runner does it: ``compile_batch`` (checks
     and compiles a whole generation in one call), then ``evaluate_batch`` of
-    ``tasks.make("xor-v1")``.
+    ``tasks.make("xor-v2")``.
 
     With ``compile_in_timing`` the kernel side checks and compiles the batch and the
     reference side builds a ReferenceNet per network; without it both sides get prepared
     networks and only evaluation is timed.
     """
-    task = tasks.make("xor-v1")
+    task = tasks.make("xor-v2")
     networks = xor_networks()
     patterns, targets = task.patterns.tolist(), task.targets.tolist()
 
@@ -255,7 +255,7 @@ import time
 from neuroyard import tasks
 from neuroyard.harness.compiled import compile_network
 from neuroyard.harness.network import fully_connected
-task = tasks.make("xor-v1")
+task = tasks.make("xor-v2")
 task.evaluate(compile_network(fully_connected(2, 1, [1.0, -1.0, 0.5]), 2, 1))
 print(time.time(), time.process_time())
 """

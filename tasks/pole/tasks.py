@@ -17,6 +17,7 @@ choice is marked ``from memory`` and explained beside the setting below.
 
 from __future__ import annotations
 
+import math
 from typing import Any, ClassVar
 
 import numpy as np
@@ -80,6 +81,35 @@ POSITIVE_SETTINGS = (
     "scale_angular_velocity_1",
     "scale_angular_velocity_2",
 )
+
+
+# What each state variable is, for the spec's list of inputs (see physics.py for the signs).
+STATE_NAMES = (
+    "x, cart position (m, + to the right)",
+    "x_dot, cart velocity (m/s)",
+    "theta_1, long pole angle from upright (rad, + leaning to +x)",
+    "theta_dot_1, long pole angular velocity (rad/s)",
+    "theta_2, short pole angle from upright (rad, + leaning to +x)",
+    "theta_dot_2, short pole angular velocity (rad/s)",
+)
+SCALE_SETTINGS = (
+    "scale_x",
+    "scale_velocity",
+    "scale_angle",
+    "scale_angular_velocity_1",
+    "scale_angle",
+    "scale_angular_velocity_2",
+)
+OUTPUT_RULES = {
+    "linear": (
+        "force F = {f:g} * clip(2 * out - 1, -1, 1) N (out = 0.5: no force); an output "
+        "above 1 or below 0 saturates, out = +inf gives +{f:g} N, -inf and NaN give "
+        "-{f:g} N (NaN compares false), so every output maps to a finite force"
+    ),
+    "bang-bang": (
+        "force F = +{f:g} N if out > 0.5 else -{f:g} N; NaN gives -{f:g} N (NaN compares false)"
+    ),
+}
 
 
 class PoleBalancing(Task):
@@ -179,7 +209,12 @@ class PoleBalancing(Task):
         steps, jiggle = balance(net, self.physics, self.rules, self.start, cap, no_record)
         if not self.damped:
             return Evaluation(float(steps))
-        anti_wiggle = DAMPED_JIGGLE_NUMERATOR / jiggle if steps >= JIGGLE_WINDOW else 0.0
+        if steps < JIGGLE_WINDOW:
+            anti_wiggle = 0.0
+        elif jiggle > 0.0:
+            anti_wiggle = DAMPED_JIGGLE_NUMERATOR / jiggle
+        else:  # a cart and pole exactly at rest for 100 steps: the formula has no value
+            return Evaluation(math.nan)
         return Evaluation(DAMPED_STEP_WEIGHT * steps / cap + DAMPED_JIGGLE_WEIGHT * anti_wiggle)
 
     def success_test(self, net: CompiledNetwork, evaluation: Evaluation) -> SuccessCheck:
@@ -215,6 +250,14 @@ class PoleBalancing(Task):
         starts = self.generalization_starts
         return int(count_balanced(net, self.physics, self.rules, starts, steps))
 
+    def observations(self) -> tuple[str, ...]:
+        """The inputs in input-node order, each with its divisor (see :meth:`_rules`)."""
+        out = []
+        for k, scale in zip(self.rules.obs_index, self.rules.obs_scale, strict=True):
+            setting = SCALE_SETTINGS[k]
+            out.append(f"{STATE_NAMES[k]} divided by {scale:.6g} (setting {setting})")
+        return tuple(out)
+
     @property
     def spec(self) -> TaskSpec:
         n_inputs = int(self.rules.obs_index.shape[0])
@@ -223,6 +266,10 @@ class PoleBalancing(Task):
                 f"damped fitness 0.1 t/{self.settings['episode_steps']} + 0.9 * 0.75 / "
                 "(sum of |x|+|x_dot|+|th1|+|th1_dot| over the last 100 steps; 0 when t < 100), "
                 "t = steps balanced (Gruau et al. 1996)"
+            )
+            fitness += (
+                "; at least 0 with no upper bound; a cart and pole exactly at rest for the "
+                "last 100 steps (jiggle sum 0) has no value and counts as the worst fitness"
             )
             max_fitness = None
         else:
@@ -246,8 +293,17 @@ class PoleBalancing(Task):
             default_budget=self.budget,
             sources=sources,
             max_fitness=max_fitness,
+            min_fitness=0.0,
             needs_memory=not self.velocities,
             settings=dict(self.settings),
+            observations=self.observations(),
+            actions=(
+                "the force on the cart, held for the control step of "
+                f"{self.settings['substeps']} x {self.settings['tau']:g} s",
+            ),
+            output_rule=OUTPUT_RULES[self.settings["force_mapping"]].format(
+                f=self.settings["max_force"]
+            ),
         )
 
 

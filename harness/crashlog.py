@@ -1,0 +1,47 @@
+"""Crash logs: the traceback of an internal error, kept in a file the one-line message names.
+
+Logs go to ``$NEUROYARD_CRASH_DIR`` when set, else ``$XDG_STATE_HOME/neuroyard/crashes``
+(``~/.local/state/neuroyard/crashes``), else, when neither can be written, the system's
+temporary folder. One file per error: ``crash-<UTC time>-<process id>-<n>.log``.
+"""
+
+from __future__ import annotations
+
+import itertools
+import os
+import platform
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+from . import __version__
+
+_COUNTER = itertools.count()
+
+
+def _folders() -> list[Path]:
+    chosen = os.environ.get("NEUROYARD_CRASH_DIR")
+    state = os.environ.get("XDG_STATE_HOME") or str(Path.home() / ".local" / "state")
+    folders = [Path(chosen)] if chosen else []
+    return [*folders, Path(state) / "neuroyard" / "crashes", Path(tempfile.gettempdir())]
+
+
+def write(traceback_text: str, context: str = "") -> Path | None:
+    """Write a crash log holding ``traceback_text`` (and ``context``: what was being done);
+    return its path, or None when no folder could take it."""
+    stamp = time.strftime("%Y%m%dT%H%M%SZ", time.gmtime())
+    name = f"crash-{stamp}-{os.getpid()}-{next(_COUNTER)}.log"
+    header = (
+        f"neuroyard {__version__}, Python {platform.python_version()}, {platform.platform()}\n"
+        f"command: {' '.join(sys.argv)}\n" + (f"while: {context}\n" if context else "") + "\n"
+    )
+    for folder in _folders():
+        try:
+            folder.mkdir(parents=True, exist_ok=True)
+            path = folder / name
+            path.write_text(header + traceback_text)
+            return path
+        except OSError:
+            continue
+    return None

@@ -1,0 +1,252 @@
+"""Executing runs: supervised worker processes, or in this process for debugging.
+
+:class:`Supervisor` keeps up to ``workers`` long-lived worker processes (:mod:`.worker`),
+gives each one run at a time and watches them. It ends a worker whose evolver call runs
+past the time limit, notices a worker that exits or is killed, and turns either into a
+failed record of that run whose reason names the call and the generation ("ask() ran past
+30 s in generation 12", "evolver process exited with status 1 during ask() in generation
+3"); the worker is replaced and every other run goes on. A worker that dies outside any
+evolver call (in the harness's own code, so not provably the evolver's doing) has its run
+started again from its spec in a new worker, once; the record of a run that succeeds the
+second time is the same as an undisturbed one. Workers are started with the ``spawn``
+method, with Ctrl-C ignored: the coordinator alone handles it and ends the workers.
+
+:class:`InProcess` runs each run in this process, with no limits: for debugging with a
+debugger or profiler (a hanging evolver hangs the campaign there).
+
+Both offer the same small interface: ``capacity``, ``submit(spec)``,
+``collect(timeout) -> list[Finished]`` and ``close()``.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import multiprocessing
+import os
+import signal
+import threading
+import time
+import traceback
+from dataclasses import dataclass
+from multiprocessing.connection import wait
+from typing import Any
+
+from . import worker
+from .evolver import MAX_BATCH
+from .runner import FAILED, RunRecord, RunSpec, call_label, new_record, run_one
+
+POLL = 0.2  # s between checks of the running calls' time (ours)
+DEFAULT_TIME_LIMIT = 60.0  # s per evolver call (ours: far above any reference evolver's call)
+DEFAULT_MEMORY_LIMIT_MB = 4096  # per run (ours: 20x a NEAT double-pole run)
+
+
+@dataclass(frozen=True)
+class Limits:
+    """Bounds of a supervised run. ``time_limit``: seconds one evolver call (building it,
+    ``start``, ``settings``, ``ask``, ``tell``, ``stats``, ``stop``) may take, None for no
+    bound; ``memory_limit_mb``: megabytes a run may add to its worker process's address
+    space, None for no bound; ``max_batch``: networks one ``ask()`` may return."""
+
+    time_limit: float | None = DEFAULT_TIME_LIMIT
+    memory_limit_mb: int | None = DEFAULT_MEMORY_LIMIT_MB
+    max_batch: int = MAX_BATCH
+
+
+@dataclass(frozen=True)
+class Finished:
+    """A run that is over: its record, or (``record`` None) the traceback of a fault of the
+    harness itself, which is not stored (the run is tried again when the campaign resumes)."""
+
+    spec: RunSpec
+    record: RunRecord | None
+    error: str | None = None
+
+
+def failed_record(spec: RunSpec, reason: str, status: Any, started: float) -> RunRecord:
+    """The record of a run whose worker was ended or died: what the shared status says of
+    its progress (generations, evaluations), and the reason; no log survives."""
+    record = new_record(spec)
+    record.status = FAILED
+    record.failure = reason
+    record.generations = int(status[worker.GENERATIONS])
+    record.evaluations = int(status[worker.EVALUATIONS])
+    wall = time.monotonic() - started
+    record.timing = {"wall": wall, "evolver": 0.0, "kernel_load": 0.0, "harness": wall}
+    return record
+
+
+def _exit_reason(exitcode: int | None) -> str:
+    if exitcode is not None and exitcode < 0:
+        try:
+            name = signal.Signals(-exitcode).name
+        except ValueError:
+            name = "an unknown signal"
+        return f"was killed by signal {-exitcode} ({name})"
+    return f"exited with status {exitcode}"
+
+
+class _Worker:
+    """One worker process, its pipe and shared status, and the run it has (if any)."""
+
+    def __init__(self, context: Any, limits: Limits) -> None:
+        self.status = context.RawArray("d", worker.STATUS_FIELDS)
+        self.conn, child = context.Pipe()
+        self.process = context.Process(
+            target=worker.main,
+            args=(child, self.status, limits.max_batch, limits.memory_limit_mb, os.getpid()),
+            daemon=True,
+        )
+        # A Ctrl-C while the process starts must not reach it: it inherits SIG_IGN.
+        main_thread = threading.current_thread() is threading.main_thread()
+        previous = signal.signal(signal.SIGINT, signal.SIG_IGN) if main_thread else None
+        try:
+            self.process.start()
+        finally:
+            if main_thread:
+                signal.signal(signal.SIGINT, previous)
+        child.close()
+        self.spec: RunSpec | None = None
+        self.started = 0.0
+        self.attempts = 0
+
+    def give(self, spec: RunSpec, attempts: int = 1) -> None:
+        worker.clear(self.status)
+        self.spec, self.started, self.attempts = spec, time.monotonic(), attempts
+        self.conn.send(spec)
+
+    def kill(self) -> None:
+        """End the worker and every process it started (its process group)."""
+        for target in (lambda: os.killpg(self.process.pid, signal.SIGKILL), self.process.kill):
+            with contextlib.suppress(ProcessLookupError, PermissionError, OSError):
+                target()
+        self.process.join(timeout=5)
+        self.conn.close()
+
+    def call(self) -> tuple[str, int | None, float]:
+        """(evolver call in progress or "", its generation, seconds it has run)."""
+        started = self.status[worker.STARTED]
+        code = int(self.status[worker.CALL])
+        generation = int(self.status[worker.GENERATION])
+        if code == 0 or started != self.status[worker.STARTED]:
+            return "", None, 0.0  # no call, or one that just changed: look again next time
+        return (
+            worker.CALLS[code],
+            (None if generation < 0 else generation),
+            (time.monotonic() - started),
+        )
+
+
+class Supervisor:
+    """Runs on up to ``workers`` supervised worker processes (see module docstring)."""
+
+    def __init__(self, workers: int, limits: Limits | None = None) -> None:
+        self.capacity = workers
+        self.limits = limits or Limits()
+        self.context = multiprocessing.get_context("spawn")
+        self.workers: list[_Worker] = []
+
+    def submit(self, spec: RunSpec, attempts: int = 1) -> None:
+        idle = [w for w in self.workers if w.spec is None and w.process.is_alive()]
+        if idle:
+            chosen = idle[0]
+        else:
+            if sum(1 for w in self.workers if w.spec is not None) >= self.capacity:
+                raise RuntimeError("Supervisor.submit: every worker is busy")
+            self.workers = [w for w in self.workers if w.process.is_alive()]
+            chosen = _Worker(self.context, self.limits)
+            self.workers.append(chosen)
+        chosen.give(spec, attempts)
+
+    def collect(self, timeout: float) -> list[Finished]:
+        """Wait up to ``timeout`` s for runs to end; return those that did (maybe none)."""
+        deadline = time.monotonic() + timeout
+        while True:
+            busy = [w for w in self.workers if w.spec is not None]
+            if not busy:
+                return []
+            ready = wait([w.conn for w in busy], min(POLL, max(0.0, deadline - time.monotonic())))
+            finished = [f for w in busy if (f := self._check(w, w.conn in ready)) is not None]
+            if finished or time.monotonic() >= deadline:
+                return finished
+
+    def _check(self, w: _Worker, readable: bool) -> Finished | None:
+        spec = w.spec
+        assert spec is not None
+        if readable:
+            try:
+                kind, payload = w.conn.recv()
+            except (EOFError, OSError):
+                return self._died(w)
+            w.spec = None
+            if kind == "record":
+                return Finished(spec, payload)
+            return Finished(spec, None, payload)
+        if not w.process.is_alive():
+            return self._died(w)
+        call, generation, seconds = w.call()
+        limit = self.limits.time_limit
+        if call and limit is not None and seconds > limit:
+            w.kill()
+            w.spec = None
+            reason = f"{call_label(call, generation)} ran past {limit:g} s (the time limit)"
+            return Finished(spec, failed_record(spec, reason, w.status, w.started))
+        return None
+
+    def _died(self, w: _Worker) -> Finished | None:
+        """A worker exited or was killed during a run: fail the run, or start it again once
+        when the worker died outside any evolver call."""
+        spec = w.spec
+        assert spec is not None
+        w.process.join(timeout=5)
+        code = int(w.status[worker.CALL])
+        how = _exit_reason(w.process.exitcode)
+        w.kill()
+        w.spec = None
+        if code:
+            call = call_label(worker.CALLS[code], worker.generation_of(w.status))
+            reason = f"evolver process {how} during {call}"
+            return Finished(spec, failed_record(spec, reason, w.status, w.started))
+        if w.attempts < 2:
+            self.submit(spec, attempts=w.attempts + 1)
+            return None
+        where = worker.generation_of(w.status, harness=True)
+        place = "before the first generation" if where is None else f"in generation {where}"
+        reason = f"worker process {how} outside any evolver call {place}, twice"
+        return Finished(spec, failed_record(spec, reason, w.status, w.started))
+
+    def close(self) -> None:
+        """End every worker: idle ones are asked to stop, busy ones are killed."""
+        for w in self.workers:
+            if w.spec is None and w.process.is_alive():
+                with contextlib.suppress(OSError):
+                    w.conn.send(None)
+        for w in self.workers:
+            if w.spec is None:
+                w.process.join(timeout=2)
+            w.kill()
+        self.workers = []
+
+
+class InProcess:
+    """Runs each run in this process, one at a time, with no time or memory limit."""
+
+    capacity = 1
+
+    def __init__(self, limits: Limits | None = None) -> None:
+        self.limits = limits or Limits()
+        self.queue: list[RunSpec] = []
+
+    def submit(self, spec: RunSpec) -> None:
+        self.queue.append(spec)
+
+    def collect(self, timeout: float) -> list[Finished]:
+        if not self.queue:
+            return []
+        spec = self.queue.pop(0)
+        try:
+            return [Finished(spec, run_one(spec, max_batch=self.limits.max_batch))]
+        except Exception:
+            return [Finished(spec, None, traceback.format_exc())]
+
+    def close(self) -> None:
+        self.queue.clear()

@@ -1,0 +1,131 @@
+"""A worker process: runs one run at a time for the supervisor, until told to stop.
+
+The worker is long-lived: numba kernels are loaded once per worker and task, then reused
+by every later run it is given. It tells the supervisor, through a small block of shared
+memory, which evolver call it is in and since when (:class:`SharedWatch`), so the
+supervisor can end a call that runs past the time limit. It ignores Ctrl-C (the
+coordinator ends it), runs in its own process group (so ending it also ends any process
+the evolver started), and exits when the coordinator is gone.
+
+Messages on the pipe: the supervisor sends a :class:`~.runner.RunSpec` (or None: stop);
+the worker answers ``("record", RunRecord)`` or ``("error", traceback text)`` for a fault
+of the harness itself.
+"""
+
+from __future__ import annotations
+
+import os
+import resource
+import signal
+import threading
+import time
+import traceback
+from multiprocessing.connection import Connection
+from typing import Any
+
+# Evolver calls a worker reports, by code (0: none, the harness's own code or idle).
+CALLS = (
+    "",
+    "building the evolver",
+    "start()",
+    "settings()",
+    "ask()",
+    "tell()",
+    "stats()",
+    "stop()",
+)
+CODE = {name: code for code, name in enumerate(CALLS)}
+# Layout of the shared status block (doubles): the evolver call in progress (its code,
+# 0 for none), its generation (-1: before the first), when it started (time.monotonic(),
+# one clock for every process of the machine), the generation of the last call that ended
+# (where the harness is between calls), and the run's generations and evaluations so far.
+CALL, GENERATION, STARTED, LAST_GENERATION, GENERATIONS, EVALUATIONS = range(6)
+STATUS_FIELDS = 6
+
+
+def clear(status: Any) -> None:
+    """Reset the status block for a new run."""
+    status[:] = [0.0, -1.0, 0.0, -1.0, 0.0, 0.0]
+
+
+def generation_of(status: Any, harness: bool = False) -> int | None:
+    """The generation of the call in progress (or, with ``harness``, of the last call that
+    ended); None before the first generation."""
+    value = int(status[LAST_GENERATION if harness else GENERATION])
+    return None if value < 0 else value
+
+
+class SharedWatch:
+    """The runner's :class:`~.runner.Watch`, written to the shared status block."""
+
+    def __init__(self, status: Any) -> None:
+        self.status = status
+
+    def enter(self, call: str, generation: int | None) -> None:
+        self.status[STARTED] = time.monotonic()
+        self.status[GENERATION] = -1.0 if generation is None else float(generation)
+        self.status[CALL] = float(CODE[call])  # written last: the call is on from here
+
+    def leave(self) -> None:
+        self.status[LAST_GENERATION] = self.status[GENERATION]
+        self.status[CALL] = 0.0
+
+    def progress(self, generations: int, evaluations: int) -> None:
+        self.status[GENERATIONS] = float(generations)
+        self.status[EVALUATIONS] = float(evaluations)
+
+
+def _exit_with_parent(parent: int) -> None:
+    """End this process soon after the coordinator is gone (never returns)."""
+    while os.getppid() == parent:
+        time.sleep(1.0)
+    os._exit(0)
+
+
+def _address_space() -> int:
+    """This process's virtual memory size in bytes (VmSize)."""
+    with open("/proc/self/status") as fh:
+        for line in fh:
+            if line.startswith("VmSize:"):
+                return int(line.split()[1]) * 1024
+    return 0
+
+
+def _limit_memory(megabytes: int | None) -> None:
+    """Let the coming run grow this process by at most ``megabytes`` (None: no limit);
+    an allocation past it fails with MemoryError inside the run."""
+    _, hard = resource.getrlimit(resource.RLIMIT_AS)
+    if megabytes is None:
+        resource.setrlimit(resource.RLIMIT_AS, (hard, hard))
+        return
+    soft = _address_space() + megabytes * 1024 * 1024
+    if hard != resource.RLIM_INFINITY:
+        soft = min(soft, hard)
+    resource.setrlimit(resource.RLIMIT_AS, (soft, hard))
+
+
+def main(
+    conn: Connection, status: Any, max_batch: int, memory_limit_mb: int | None, parent: int
+) -> None:
+    """The worker's loop (the target of its process); see the module docstring."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    os.setpgrp()
+    threading.Thread(target=_exit_with_parent, args=(parent,), daemon=True).start()
+    from .runner import run_one
+
+    watch = SharedWatch(status)
+    while True:
+        try:
+            spec = conn.recv()
+        except (EOFError, OSError):
+            return
+        if spec is None:
+            return
+        try:
+            _limit_memory(memory_limit_mb)
+            record = run_one(spec, watch, max_batch, memory_limit_mb)
+            _limit_memory(None)
+            conn.send(("record", record))
+        except BaseException:  # a fault of the harness: the coordinator logs it
+            _limit_memory(None)
+            conn.send(("error", traceback.format_exc()))
