@@ -269,7 +269,7 @@ def _cmd_evaluate(args: argparse.Namespace) -> None:
     spec = task.spec
     raw = task.evaluate(compiled)
     try:
-        (result,), non_finite = bound_fitness(
+        (result,), non_finite_fitness = bound_fitness(
             [raw], spec.id, spec.min_fitness, spec.max_fitness, generation=0
         )
     except RunFault as fault:
@@ -281,7 +281,7 @@ def _cmd_evaluate(args: argparse.Namespace) -> None:
                 "task": spec.id,
                 "fitness": result.fitness,
                 "fitness_bounds": [spec.min_fitness, spec.max_fitness],
-                "non_finite_output": bool(non_finite),
+                "non_finite_output": bool(non_finite_fitness),
                 "solved": check.solved,
                 "details": dict(check.details),
                 "hidden_nodes": network.hidden_nodes,

@@ -2,13 +2,13 @@
 
 JSON has no NaN or infinity, and strict parsers reject the ``NaN``/``Infinity`` tokens that
 Python's :mod:`json` writes by default. The rule: a non-finite number is written as
-``null``, and the nearest enclosing JSON object gets a member ``"non_finite"`` that maps the
-number's path inside that object (keys and list positions joined by ``.``) to ``"nan"``,
-``"inf"`` or ``"-inf"``::
+``null``, and the nearest enclosing JSON object gets a member ``"non_finite_numbers"`` (a
+reserved key) that maps the number's path inside that object (keys and list positions
+joined by ``.``) to ``"nan"``, ``"inf"`` or ``"-inf"``::
 
     {"fitness": NaN, "behaviour": [1.0, Infinity]}
     -> {"fitness": null, "behaviour": [1.0, null],
-        "non_finite": {"fitness": "nan", "behaviour.1": "inf"}}
+        "non_finite_numbers": {"fitness": "nan", "behaviour.1": "inf"}}
 
 :func:`loads` reverses it, so a document written by :func:`dumps` reads back with the same
 Python values. A non-finite number outside any object (a bare list of numbers) becomes
@@ -21,7 +21,7 @@ import json
 import math
 from typing import Any
 
-NOTE = "non_finite"
+NOTE = "non_finite_numbers"
 _NAMES = {"nan": math.nan, "inf": math.inf, "-inf": -math.inf}
 
 

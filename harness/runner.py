@@ -76,7 +76,7 @@ class GenerationLog:
     """One generation: fitness of its best and mean candidate, evaluations so far, best size.
 
     ``stats`` are the evolver's own figures (its ``stats()``, read after ``tell()`` of this
-    generation, so a row is one generation's picture); ``non_finite`` counts the
+    generation, so a row is one generation's picture); ``non_finite_fitness`` counts the
     evaluations whose fitness was not finite and was recorded as the task's worst (they
     count in the mean as that worst value); ``champion_test`` holds the
     generation's success test: ``rank``, the tested network's place in the generation's
@@ -94,7 +94,7 @@ class GenerationLog:
     best_connections: int
     stats: dict[str, float] = field(default_factory=dict)
     champion_test: dict[str, Any] = field(default_factory=dict)
-    non_finite: int = 0
+    non_finite_fitness: int = 0
 
 
 @dataclass
@@ -368,7 +368,7 @@ def _generations(
             )
         except NetworkError as exc:
             raise RunFault(f"invalid network: {exc}") from None
-        results, non_finite = bound_fitness(
+        results, non_finite_fitness = bound_fitness(
             task.evaluate_batch(compiled),
             task_spec.id,
             task_spec.min_fitness,
@@ -405,7 +405,7 @@ def _generations(
             best_hidden=batch[top].hidden_nodes,
             best_connections=batch[top].enabled_connections,
             champion_test=details,
-            non_finite=non_finite,
+            non_finite_fitness=non_finite_fitness,
         )
         record.log.append(row)  # the row is complete once tell() and stats() are done
         clock.call("tell()", generation, evolver.tell, tuple(results))

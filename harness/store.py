@@ -24,7 +24,7 @@ two coordinators (a claim taken over from a stalled one) is stored once.
 rule of :mod:`.jsonsafe`).
 
 Schema versions: 1 had no ``champion_test`` column in ``generations``; 2 had no
-``non_finite`` column and no ``claims`` table. An older store is read as it is (missing
+``non_finite_fitness`` column and no ``claims`` table. An older store is read as it is (missing
 columns read as their defaults) and is upgraded inside the transaction of the first write
 to it, so an upgrade that fails leaves the store as it was.
 """
@@ -95,7 +95,7 @@ CREATE TABLE IF NOT EXISTS generations (
     best_connections INTEGER NOT NULL,
     stats TEXT NOT NULL,
     champion_test TEXT NOT NULL DEFAULT '{}',
-    non_finite INTEGER NOT NULL DEFAULT 0,
+    non_finite_fitness INTEGER NOT NULL DEFAULT 0,
     PRIMARY KEY (run_id, generation)
 );
 """
@@ -105,7 +105,10 @@ CREATE TABLE IF NOT EXISTS generations (
 # Statements that bring a store of version v to v + 1 (run inside a write transaction).
 _UPGRADES = {
     1: ("ALTER TABLE generations ADD COLUMN champion_test TEXT NOT NULL DEFAULT '{}'",),
-    2: ("ALTER TABLE generations ADD COLUMN non_finite INTEGER NOT NULL DEFAULT 0", _CLAIMS),
+    2: (
+        "ALTER TABLE generations ADD COLUMN non_finite_fitness INTEGER NOT NULL DEFAULT 0",
+        _CLAIMS,
+    ),
 }
 
 
@@ -331,7 +334,7 @@ class ResultStore:
                 return False
             db.executemany(
                 "INSERT INTO generations(run_id, generation, evaluations, best_fitness,"
-                " mean_fitness, best_hidden, best_connections, stats, champion_test, non_finite)"
+                " mean_fitness, best_hidden, best_connections, stats, champion_test, non_finite_fitness)"
                 " VALUES (?,?,?,?,?,?,?,?,?,?)",
                 [
                     (
@@ -344,7 +347,7 @@ class ResultStore:
                         g["best_connections"],
                         jsonsafe.dumps(g["stats"], sort_keys=True),
                         jsonsafe.dumps(g["champion_test"], sort_keys=True),
-                        g["non_finite"],
+                        g["non_finite_fitness"],
                     )
                     for g in log
                 ],
@@ -367,10 +370,10 @@ class ResultStore:
 
     def _log(self, run_id: int) -> list[dict[str, Any]]:
         champion_test = "champion_test" if self.version >= 2 else "'{}'"
-        non_finite = "non_finite" if self.version >= 3 else "0"
+        non_finite_fitness = "non_finite_fitness" if self.version >= 3 else "0"
         rows = self.db.execute(
             "SELECT generation, evaluations, best_fitness, mean_fitness, best_hidden,"
-            f" best_connections, stats, {champion_test}, {non_finite} FROM generations"
+            f" best_connections, stats, {champion_test}, {non_finite_fitness} FROM generations"
             " WHERE run_id=? ORDER BY generation",
             (run_id,),
         ).fetchall()

@@ -15,32 +15,38 @@ or run it without packaging as ``neuroyard run --evolver my_module:HillClimber .
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 
 from neuroyard.harness.evolver import Evaluation, Problem
 from neuroyard.harness.network import Network
+from neuroyard.harness.settings import Option, resolve_options
 
 from .fixed_topology import FixedTopology
+
+OPTIONS = {
+    "hidden": Option(2, ">= 0", lambda v: v >= 0),
+    "offspring": Option(20, ">= 1", lambda v: v >= 1),
+    "sigma": Option(1.0, "a finite number > 0", lambda v: 0 < v < math.inf),
+    "init_range": Option(2.0, "a finite number > 0", lambda v: 0 < v < math.inf),
+}
 
 
 class HillClimber:
     """Keep one parent; each generation try ``offspring`` Gaussian mutants (step ``sigma``);
-    a mutant at least as fit as the parent replaces it. Config: ``hidden`` (2),
-    ``offspring`` (20), ``sigma`` (1.0), ``init_range`` (2.0)."""
+    a mutant at least as fit as the parent replaces it. Options: ``hidden`` (2),
+    ``offspring`` (20), ``sigma`` (1.0), ``init_range`` (2.0); a bad one raises
+    ``ValueError`` naming it."""
 
-    def __init__(
-        self, hidden: int = 2, offspring: int = 20, sigma: float = 1.0, init_range: float = 2.0
-    ) -> None:
-        if offspring < 1 or sigma <= 0 or init_range <= 0 or hidden < 0:
-            raise ValueError("need hidden >= 0, offspring >= 1, sigma > 0, init_range > 0")
-        self.hidden, self.offspring, self.sigma, self.init_range = (
-            hidden,
-            offspring,
-            sigma,
-            init_range,
-        )
+    def __init__(self, **options: Any) -> None:
+        values = resolve_options(OPTIONS, options)
+        self.hidden: int = values["hidden"]
+        self.offspring: int = values["offspring"]
+        self.sigma: float = values["sigma"]
+        self.init_range: float = values["init_range"]
 
     def start(self, problem: Problem, seed: int) -> None:
         self.rng = np.random.default_rng(seed)

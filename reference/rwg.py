@@ -9,40 +9,41 @@ report RWG figures on pole balancing, see reference/figures.)
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 
+from neuroyard.harness.activations import NAMES
 from neuroyard.harness.evolver import Evaluation, Problem
 from neuroyard.harness.network import Network
+from neuroyard.harness.settings import Option, resolve_options
 
 from .fixed_topology import FixedTopology
 
+OPTIONS = {
+    "hidden": Option(2, ">= 0", lambda v: v >= 0),
+    "weight_range": Option(10.0, "a finite number > 0", lambda v: 0 < v < math.inf),
+    "batch_size": Option(100, ">= 1", lambda v: v >= 1),
+    "recurrent": Option(None, kind=bool, nullable=True),
+    "activation": Option("neat_sigmoid", f"one of {', '.join(NAMES)}", lambda v: v in NAMES),
+}
+
 
 class RandomWeightGuessing:
-    """Config: ``hidden`` nodes (default 2), ``weight_range`` (default 10.0, common practice),
-    ``batch_size`` candidates per generation (default 100), ``recurrent`` (default: True
-    when the task needs memory), ``activation`` (default ``neat_sigmoid``)."""
+    """Options: ``hidden`` nodes (default 2), ``weight_range`` (default 10.0, common
+    practice), ``batch_size`` candidates per generation (default 100), ``recurrent``
+    (default: True when the task needs memory), ``activation`` (default ``neat_sigmoid``).
+    A bad option raises ``ValueError`` naming it."""
 
-    def __init__(
-        self,
-        hidden: int = 2,
-        weight_range: float = 10.0,
-        batch_size: int = 100,
-        recurrent: bool | None = None,
-        activation: str = "neat_sigmoid",
-    ) -> None:
-        if weight_range <= 0:
-            raise ValueError(f"weight_range must be > 0, got {weight_range}")
-        if batch_size < 1:
-            raise ValueError(f"batch_size must be >= 1, got {batch_size}")
-        if hidden < 0:
-            raise ValueError(f"hidden must be >= 0, got {hidden}")
-        self.hidden = hidden
-        self.weight_range = weight_range
-        self.batch_size = batch_size
-        self.recurrent = recurrent
-        self.activation = activation
+    def __init__(self, **options: Any) -> None:
+        values = resolve_options(OPTIONS, options)
+        self.hidden: int = values["hidden"]
+        self.weight_range: float = values["weight_range"]
+        self.batch_size: int = values["batch_size"]
+        self.recurrent: bool | None = values["recurrent"]
+        self.activation: str = values["activation"]
 
     def start(self, problem: Problem, seed: int) -> None:
         recurrent = problem.needs_memory if self.recurrent is None else self.recurrent

@@ -141,8 +141,28 @@ def test_evaluate_a_network_file(tmp_path, capsys):
         (["run", "--setting", "bits=x", "--task", "parity-v2"], "setting 'bits' must be int"),
         (
             ["run", "--param", "batch_size=0", "--evolver", "rwg"],
-            "bad configuration: batch_size must be >= 1",
+            "bad configuration: option 'batch_size' must be >= 1, got 0",
         ),
+        (
+            ["run", "--param", "hidden=abc", "--evolver", "rwg"],
+            "bad configuration: option 'hidden' must be int, got 'abc'",
+        ),
+        (
+            ["run", "--param", "sigma=-1", "--evolver", "hill-climber"],
+            "bad configuration: option 'sigma' must be a finite number > 0, got -1.0",
+        ),
+        (
+            ["run", "--param", "offspring=2.5", "--evolver", "hill-climber"],
+            "bad configuration: option 'offspring' must be int, got 2.5",
+        ),
+        (
+            ["run", "--param", "population_size=x", "--evolver", "neat"],
+            "NEAT setting 'population_size' must be int, got 'x'",
+        ),
+        (["run", "--task", "xor-v1"], "task 'xor-v1' is retired, use 'xor-v2'"),
+        (["run", "--time-limit", "-1"], "argument --time-limit: must be 0 (no limit) or more"),
+        (["run", "--memory-limit", "lots"], "argument --memory-limit: expected a number"),
+        (["run", "--max-batch", "0"], "argument --max-batch: must be at least 1"),
         (
             ["report", "--store", "/nonexistent/x.db"],
             "results store /nonexistent/x.db: no such file",
