@@ -27,7 +27,7 @@ from tabulate import tabulate
 from neuroyard.reference.published import figures_for
 
 from . import jsonsafe
-from .runner import RunRecord
+from .runner import FAILED, RunRecord
 from .stats import GroupSummary, fisher_p_value, summarize, welch_p_value
 
 FORMATS = ("text", "json", "markdown")
@@ -66,6 +66,9 @@ class ReportRow:
     # The options given for these runs (``--config`` / ``--param``); every other evolver
     # setting is the evolver's own default.
     evolver_config: dict[str, Any] = field(default_factory=dict)
+    # (run index, generations, reason) of every failed run: one that broke, not one that
+    # spent its budget unsolved.
+    failures: tuple[tuple[int, int, str], ...] = ()
 
     def to_json(self) -> dict[str, Any]:
         s = self.summary
@@ -80,6 +83,9 @@ class ReportRow:
         row.update({k: v for k, v in asdict(s).items() if k != "success_ci"})
         row["success_ci_low"], row["success_ci_high"] = s.success_ci
         row["published"] = [asdict(c) for c in self.comparisons]
+        row["failures"] = [
+            {"run_index": i, "generations": g, "reason": reason} for i, g, reason in self.failures
+        ]
         return row
 
 
@@ -166,6 +172,11 @@ def build(records: Iterable[RunRecord]) -> list[ReportRow]:
                 summary,
                 _comparisons(group, summary),
                 dict(group[0].config),
+                tuple(
+                    (r.run_index, r.generations, r.failure or "")
+                    for r in group
+                    if r.status == FAILED
+                ),
             )
         )
     return rows
@@ -257,6 +268,18 @@ def _published_table(rows: Sequence[ReportRow], fmt: str) -> str:
     return tabulate(table, head, tablefmt="github" if fmt == "markdown" else "simple")
 
 
+def _failures_table(rows: Sequence[ReportRow], fmt: str) -> str:
+    table = [
+        [r.evolver, r.task, index, generations, reason]
+        for r in rows
+        for index, generations, reason in r.failures
+    ]
+    if not table:
+        return ""
+    head = ["evolver", "task", "run", "generations", "reason"]
+    return tabulate(table, head, tablefmt="github" if fmt == "markdown" else "simple")
+
+
 def _settings_lines(rows: Sequence[ReportRow], fmt: str) -> list[str]:
     """Every distinct task and evolver setting the rows were measured under.
 
@@ -293,6 +316,10 @@ def render(rows: Sequence[ReportRow], fmt: str = "text") -> str:
     if not rows:
         return "no runs in the store"
     parts = [_main_table(rows, fmt)]
+    failures = _failures_table(rows, fmt)
+    if failures:
+        title = "Failed runs (the run broke; an unsolved run spent its budget and is not listed)"
+        parts += ["", f"### {title}" if fmt == "markdown" else title, "", failures]
     published = _published_table(rows, fmt)
     if published:
         title = "Published figures beside measured values (ratio = measured / published)"
@@ -301,7 +328,9 @@ def render(rows: Sequence[ReportRow], fmt: str = "text") -> str:
     parts += ["", f"### {title}" if fmt == "markdown" else title + ":", *_settings_lines(rows, fmt)]
     notes = (
         "Evaluations, generations and sizes are over solved runs; success rate and ERT count "
-        "every run (ERT = all evaluations / solved runs). p: two-sided p-value that the "
+        "every run (ERT = all evaluations / solved runs). failed: runs that broke (the evolver "
+        "raised, hung, died or broke the contract; the reasons are listed above), counted as "
+        "not solved; the other unsolved runs spent their budget. p: two-sided p-value that the "
         "measured and the published runs have the same mean (Welch's t-test) or the same "
         "success rate (Fisher's exact test), where the paper gives the run "
         "count and spread the test needs."

@@ -152,7 +152,9 @@ class Supervisor:
         else:
             if sum(1 for w in self.workers if w.spec is not None) >= self.capacity:
                 raise RuntimeError("Supervisor.submit: every worker is busy")
-            self.workers = [w for w in self.workers if w.process.is_alive()]
+            # forget the idle workers that are gone; a dead one with a run is handled in
+            # collect(), which fails or restarts that run
+            self.workers = [w for w in self.workers if w.spec is not None or w.process.is_alive()]
             chosen = _Worker(self.context, self.limits)
             self.workers.append(chosen)
         chosen.give(spec, attempts)
