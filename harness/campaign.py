@@ -14,6 +14,7 @@ import hashlib
 import json
 import signal
 import sqlite3
+import threading
 import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
@@ -106,11 +107,13 @@ def execute(
     by_key = {spec.key: spec for spec in plan.expand()}
     finished = store.finished_keys()
     remaining = [key for key in by_key if key not in finished]
-    result = {"done": 0, "skipped": len(by_key) - len(remaining), "errors": 0}
-    crash: list[Path | None] = []
+    skipped = len(by_key) - len(remaining)
+    done = errors = 0
+    crash_log: Path | None = None
     owner = owner_id()
     executor = InProcess(limits) if in_process else Supervisor(workers, limits)
     running: set[str] = set()
+    interrupted = False
     bar = tqdm(total=len(remaining), unit="run", delay=3.0, disable=not progress or not remaining)
     try:
         with store.keep_alive(owner):
@@ -134,30 +137,34 @@ def execute(
                     running.discard(key)
                     remaining.remove(key)
                     if item.record is None:
-                        result["errors"] += 1
-                        crash.append(crashlog.write(item.error or "", f"run {key}"))
+                        errors += 1
+                        log = crashlog.write(item.error or "", f"run {key}")
+                        crash_log = crash_log or log
                         store.release(owner, [key])
                         continue
                     if store.save(key, campaign_id, item.record):
-                        result["done"] += 1
+                        done += 1
                     bar.update(1)
                     if on_record is not None:
                         on_record(item.record)
     except KeyboardInterrupt:
-        previous = signal.signal(signal.SIGINT, signal.SIG_IGN)  # a second Ctrl-C: no traceback
-        try:
-            _shut_down(executor, store, owner, bar)
-        finally:
-            signal.signal(signal.SIGINT, previous)
+        interrupted = True
         raise
-    _shut_down(executor, store, owner, bar)
-    return CampaignResult(
-        result["done"], result["skipped"], result["errors"], next(iter(crash), None)
-    )
+    finally:
+        _shut_down(executor, store, owner, bar, interrupted)
+    return CampaignResult(done, skipped, errors, crash_log)
 
 
-def _shut_down(executor: Any, store: ResultStore, owner: str, bar: tqdm) -> None:
-    executor.close()
-    with contextlib.suppress(StoreError, sqlite3.Error):
-        store.release(owner)
-    bar.close()
+def _shut_down(executor: Any, store: ResultStore, owner: str, bar: tqdm, interrupted: bool) -> None:
+    """End the workers, release this process's claims, close the progress bar; after a
+    Ctrl-C, with further Ctrl-Cs ignored until done (so a second one prints no traceback)."""
+    ignore = interrupted and threading.current_thread() is threading.main_thread()
+    previous = signal.signal(signal.SIGINT, signal.SIG_IGN) if ignore else None
+    try:
+        executor.close()
+        with contextlib.suppress(StoreError, sqlite3.Error):
+            store.release(owner)
+        bar.close()
+    finally:
+        if ignore:
+            signal.signal(signal.SIGINT, previous)

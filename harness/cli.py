@@ -163,22 +163,40 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
+NETWORK_CONVENTIONS = (
+    "networks: the k-th input node gets the k-th input, the k-th output node gives the k-th "
+    "output; a bias node (value 1.0) is optional, and every hidden and output node also has "
+    "its own bias term (harness/network.py)"
+)
+
+
 def _cmd_tasks(args: argparse.Namespace) -> None:
-    from neuroyard.tasks import specs
+    from neuroyard.tasks import retired, specs
 
     rows = specs()
     if args.format == "json":
         print(jsonsafe.dumps([_spec_json(s) for s in rows], indent=2))
         return
+    print(NETWORK_CONVENTIONS)
     for s in rows:
+        top = "no upper bound" if s.max_fitness is None else f"{s.max_fitness:g}"
+        print()
         print(
-            f"{s.id}: {s.inputs} inputs, {s.outputs} outputs, default budget {s.default_budget:,} evaluations"
+            f"{s.id}: {s.inputs} inputs, {s.outputs} outputs, default budget "
+            f"{s.default_budget:,} evaluations"
         )
-        print(f"  fitness: {s.fitness}")
+        print(f"  fitness: {s.fitness} (bounds {s.min_fitness:g} to {top})")
         print(f"  solved:  {s.success}")
+        for k, text in enumerate(s.observations):
+            print(f"  input {k}: {text}")
+        for k, text in enumerate(s.actions):
+            print(f"  output {k}: {text}")
+        print(f"  outputs out of range: {s.output_rule}")
         print(f"  settings: {json.dumps(dict(s.settings))}")
         for src in s.sources:
             print(f"  source:  {src}")
+    for old, (successor, reason) in sorted(retired().items()):
+        print(f"\n{old}: retired, use {successor} ({reason})")
 
 
 def _spec_json(spec: Any) -> dict[str, Any]:

@@ -198,7 +198,17 @@ class ResultStore:
 
     @contextmanager
     def _write(self) -> Iterator[sqlite3.Connection]:
-        """A write transaction that first upgrades an older store; all or nothing."""
+        """A write transaction that first upgrades an older store; all or nothing. A write
+        the file cannot take (disk full, read-only, locked past the timeout) rolls back and
+        is a :class:`StoreError` naming the path and the reason."""
+        try:
+            with self._transaction() as db:
+                yield db
+        except sqlite3.OperationalError as exc:
+            raise StoreError(f"results store {self.path}: {_reason(exc, writing=True)}") from None
+
+    @contextmanager
+    def _transaction(self) -> Iterator[sqlite3.Connection]:
         self.db.execute("BEGIN IMMEDIATE")
         try:
             for version in range(self.version, SCHEMA_VERSION):
@@ -404,8 +414,8 @@ def _gone(owner: str) -> bool:
     return False
 
 
-def _reason(exc: sqlite3.DatabaseError) -> str:
-    """The user's words for a SQLite error on open."""
+def _reason(exc: sqlite3.DatabaseError, writing: bool = False) -> str:
+    """The user's words for a SQLite error on opening (or, ``writing``, writing) a store."""
     text = str(exc)
     if "readonly" in text:
         return "cannot write it: the file or its folder is read-only"
@@ -415,4 +425,4 @@ def _reason(exc: sqlite3.DatabaseError) -> str:
         return f"cannot open it ({text})"
     if "locked" in text:
         return f"another process holds it locked ({text})"
-    return f"not a neuroyard store ({text})"
+    return f"cannot write it ({text})" if writing else f"not a neuroyard store ({text})"

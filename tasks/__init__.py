@@ -5,6 +5,6 @@ from . import (
     pole,  # noqa: F401
 )
 from .base import SuccessCheck, Task, TaskSpec
-from .registry import make, register, specs, task_ids
+from .registry import make, register, retired, specs, task_ids
 
-__all__ = ["SuccessCheck", "Task", "TaskSpec", "make", "register", "specs", "task_ids"]
+__all__ = ["SuccessCheck", "Task", "TaskSpec", "make", "register", "retired", "specs", "task_ids"]

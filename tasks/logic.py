@@ -79,7 +79,7 @@ def score_batch(
     return fitness
 
 
-FITNESS_RULE = "({n} - sum of |clip(output, 0, 1) - target| over the {n} patterns)^2, from 0 to {m}"
+FITNESS_RULE = "({n} - sum of |clip(output, 0, 1) - target| over the {n} patterns)^2"
 OUTPUT_RULE = (
     "the output is clipped to [0, 1] before its error is taken (so the maximum holds for "
     "every activation); a non-finite output on any pattern gives the worst fitness, 0, and "
@@ -134,7 +134,7 @@ class BooleanTask(Task):
         return {
             "inputs": bits,
             "outputs": 1,
-            "fitness": FITNESS_RULE.format(n=n, m=n * n),
+            "fitness": FITNESS_RULE.format(n=n),
             "max_fitness": float(n * n),
             "min_fitness": 0.0,
             "observations": tuple(

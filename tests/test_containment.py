@@ -235,3 +235,44 @@ def test_every_json_output_parses_strictly(tmp_path, capsys):
     assert code == 0 and strict(out)
     code, out, _ = run_cli(capsys, "export", "--store", str(store), "--format", "jsonl")
     assert code == 0 and all(strict(line) for line in out.splitlines())
+
+
+def test_a_full_disk_before_the_campaign_is_one_line_and_status_2(tmp_path, monkeypatch, capsys):
+    import shutil
+
+    from neuroyard.harness import store as store_module
+
+    usage = shutil.disk_usage(tmp_path)
+    monkeypatch.setattr(store_module.shutil, "disk_usage", lambda path: usage._replace(free=4096))
+    path = tmp_path / "full.db"
+    code, _, err = run_cli(capsys, *small_campaign(path))
+    assert code == 2
+    assert err == (
+        f"neuroyard: error: results store {path}: cannot write it: the disk is full "
+        "(4,096 bytes free)\n"
+    )
+
+
+def test_a_disk_that_fills_during_the_campaign_keeps_the_stored_runs(tmp_path):
+    # SQLite's page limit gives the same error as a full disk (SQLITE_FULL)
+    from neuroyard.harness.campaign import CampaignPlan, TaskChoice, execute
+    from neuroyard.harness.errors import StoreError
+    from neuroyard.harness.evolver import EvolverSpec
+    from neuroyard.harness.store import ResultStore
+
+    plan = CampaignPlan([EvolverSpec("rwg", {"batch_size": 10})], [TaskChoice("xor-v2")], 40,
+                        1, 200)  # fmt: skip
+    path = tmp_path / "filling.db"
+    with ResultStore(path) as store:
+        pages = store.db.execute("PRAGMA page_count").fetchone()[0]
+        store.db.execute(f"PRAGMA max_page_count = {pages + 40}")
+        with pytest.raises(StoreError, match=r"filling.db: cannot write it: the disk is full"):
+            execute(plan, store, progress=False)
+        kept = len(list(store.records()))
+    assert 0 < kept < 40
+    db = sqlite3.connect(path)
+    assert db.execute("PRAGMA integrity_check").fetchone() == ("ok",)
+    assert db.execute("SELECT count(*) FROM runs").fetchone() == (kept,)
+    with ResultStore(path) as store:  # with room again, the campaign resumes
+        result = execute(plan, store, progress=False)
+        assert (result.done, result.skipped) == (40 - kept, kept)
