@@ -133,6 +133,42 @@ def test_xor_fitness_formula_on_sigmoid_outputs() -> None:
     assert not solved
 
 
+def test_outputs_outside_0_1_are_clipped_before_the_error_is_taken() -> None:
+    # Output = identity(2 x1 - 3 x2 + 0.5): 0.5, -2.5, 2.5, -0.5, clipped to 0.5, 0, 1, 0.
+    # Unclipped, the published formula would give (4 - (0.5 + 3.5 + 1.5 + 0.5))^2 = 4 from
+    # a negative base; clipped: (4 - (0.5 + 1 + 0 + 0))^2 = 6.25.
+    nodes = (Node(0, "input"), Node(1, "input"), Node(2, "bias"), Node(3, "output"))
+    conns = (Connection(0, 3, 2.0), Connection(1, 3, -3.0), Connection(2, 3, 0.5))
+    fitness, solved = score("xor-v2", Network(nodes, conns))
+    assert fitness == 6.25 and not solved
+
+
+def test_a_non_finite_output_gives_nan_and_is_never_solved() -> None:
+    # bias 1e308 into an identity output doubled by a second bias link: +inf on every pattern
+    nodes = (Node(0, "input"), Node(1, "input"), Node(2, "bias"), Node(3, "output"))
+    conns = (Connection(2, 3, 1e308), Connection(2, 3, 1e308))
+    fitness, solved = score("xor-v2", Network(nodes, conns))
+    assert np.isnan(fitness) and not solved
+
+
+def test_sigmoid_outputs_score_as_the_published_unclipped_formula() -> None:
+    # Outputs in (0, 1): clipping changes nothing, so xor-v2 scores what the paper's formula
+    # (Stanley & Miikkulainen 2002, sec. 4.2) gives on the plain-Python reference outputs.
+    rng = np.random.default_rng(5)
+    for _ in range(50):
+        net = fully_connected(2, 1, rng.normal(0, 3, 9), "neat_sigmoid", hidden=2)
+        outputs = [reference_output(net, p) for p in XOR_TABLE]
+        published = 4 - sum(abs(o - t) for o, t in zip(outputs, XOR_TABLE.values(), strict=True))
+        fitness, _ = score("xor-v2", net)
+        assert fitness == pytest.approx(published**2, rel=1e-12)
+
+
+def test_version_1_is_retired_with_the_reason() -> None:
+    with pytest.raises(TaskError, match=r"task 'xor-v1' is retired, use 'xor-v2': version 1"):
+        tasks.make("xor-v1")
+    assert tasks.retired()["parity-v1"][0] == "parity-v2"
+
+
 def test_recurrent_xor_needs_enough_steps() -> None:
     # In recurrent mode the output sees the inputs two steps after they are set
     # (input -> hidden -> output), so one step per pattern cannot solve XOR.
