@@ -8,8 +8,10 @@ failed record of that run whose reason names the call and the generation ("ask()
 3"); the worker is replaced and every other run goes on. A worker that dies outside any
 evolver call (in the harness's own code, so not provably the evolver's doing) has its run
 started again from its spec in a new worker, once; the record of a run that succeeds the
-second time is the same as an undisturbed one. Workers are started with the ``spawn``
-method, with Ctrl-C ignored: the coordinator alone handles it and ends the workers.
+second time is the same as an undisturbed one. Workers are forked from the coordinator
+where the platform allows it (Linux: a worker starts in milliseconds with everything already
+imported; the coordinator's other threads hold no lock a worker needs) and spawned
+elsewhere, always with Ctrl-C ignored: the coordinator alone handles it and ends the workers.
 
 :class:`InProcess` runs each run in this process, with no limits: for debugging with a
 debugger or profiler (a hanging evolver hangs the campaign there).
@@ -24,6 +26,7 @@ import contextlib
 import multiprocessing
 import os
 import signal
+import sys
 import threading
 import time
 import traceback
@@ -38,6 +41,7 @@ from .runner import FAILED, RunRecord, RunSpec, call_label, new_record, run_one
 POLL = 0.2  # s between checks of the running calls' time (ours)
 DEFAULT_TIME_LIMIT = 60.0  # s per evolver call (ours: far above any reference evolver's call)
 DEFAULT_MEMORY_LIMIT_MB = 4096  # per run (ours: 20x a NEAT double-pole run)
+START_METHOD = "fork" if sys.platform.startswith("linux") else "spawn"
 
 
 @dataclass(frozen=True)
@@ -142,7 +146,7 @@ class Supervisor:
     def __init__(self, workers: int, limits: Limits | None = None) -> None:
         self.capacity = workers
         self.limits = limits or Limits()
-        self.context = multiprocessing.get_context("spawn")
+        self.context = multiprocessing.get_context(START_METHOD)
         self.workers: list[_Worker] = []
 
     def submit(self, spec: RunSpec, attempts: int = 1) -> None:
