@@ -36,37 +36,25 @@ class _Parser(argparse.ArgumentParser):
         raise NeuroyardError(f"{self.prog}: {message}")
 
 
-def _whole(minimum: int):
-    """An argparse type: a whole number of at least ``minimum``."""
-
-    def parse(text: str) -> int:
-        try:
-            value = int(text)
-        except ValueError:
-            raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
-        if value < minimum:
-            raise argparse.ArgumentTypeError(f"must be at least {minimum}, got {value}")
-        return value
-
-    return parse
-
-
-_positive, _seed = _whole(1), _whole(0)
-
-
-def _limit(kind: type):
-    """An argparse type: a number >= 0 of ``kind``; 0 means no limit (None)."""
+def _number(kind: type = int, minimum: float = 0, zero_is_none: bool = False):
+    """An argparse type: a finite number of ``kind`` (int: a whole number) of at least
+    ``minimum``; with ``zero_is_none``, 0 stands for "no limit" and gives None."""
+    noun = "a whole number" if kind is int else "a number"
 
     def parse(text: str) -> Any:
         try:
             value = kind(text)
         except ValueError:
-            raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
-        if not value >= 0 or value == float("inf"):
-            raise argparse.ArgumentTypeError(f"must be 0 (no limit) or more, got {text}")
-        return value or None
+            raise argparse.ArgumentTypeError(f"expected {noun}, got {text!r}") from None
+        if not minimum <= value < float("inf"):
+            lowest = "0 (no limit)" if zero_is_none else str(minimum)
+            raise argparse.ArgumentTypeError(f"must be at least {lowest}, got {text}")
+        return None if zero_is_none and value == 0 else value
 
     return parse
+
+
+_positive, _seed = _number(minimum=1), _number()
 
 
 def _assignment(text: str) -> tuple[str, Any]:
@@ -121,14 +109,14 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--workers", type=_positive, default=1, help="parallel worker processes")
     r.add_argument(
         "--time-limit",
-        type=_limit(float),
+        type=_number(float, zero_is_none=True),
         default=DEFAULT_TIME_LIMIT,
         metavar="SECONDS",
         help=f"most seconds one evolver call may take (default {DEFAULT_TIME_LIMIT:g}; 0: none)",
     )
     r.add_argument(
         "--memory-limit",
-        type=_limit(int),
+        type=_number(int, zero_is_none=True),
         default=DEFAULT_MEMORY_LIMIT_MB,
         metavar="MB",
         help="most megabytes a run may add to its worker process "

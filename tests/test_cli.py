@@ -160,8 +160,14 @@ def test_evaluate_a_network_file(tmp_path, capsys):
             "NEAT setting 'population_size' must be int, got 'x'",
         ),
         (["run", "--task", "xor-v1"], "task 'xor-v1' is retired, use 'xor-v2'"),
-        (["run", "--time-limit", "-1"], "argument --time-limit: must be 0 (no limit) or more"),
-        (["run", "--memory-limit", "lots"], "argument --memory-limit: expected a number"),
+        (
+            ["run", "--time-limit", "-1"],
+            "argument --time-limit: must be at least 0 (no limit), got -1",
+        ),
+        (
+            ["run", "--memory-limit", "lots"],
+            "argument --memory-limit: expected a whole number, got 'lots'",
+        ),
         (["run", "--max-batch", "0"], "argument --max-batch: must be at least 1"),
         (
             ["report", "--store", "/nonexistent/x.db"],
