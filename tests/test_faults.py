@@ -109,7 +109,9 @@ def campaign(request, tmp_path_factory):
     path = tmp_path_factory.mktemp(f"faults{request.param}") / "faults.db"
     evolvers = [faulty(kind) for kind in FAULTS] + HEALTHY
     with ResultStore(path) as store:
-        result = execute(plan(evolvers), store, workers=request.param, progress=False, limits=LIMITS)
+        result = execute(
+            plan(evolvers), store, workers=request.param, progress=False, limits=LIMITS
+        )
     return path, result
 
 

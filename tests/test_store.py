@@ -112,9 +112,9 @@ def test_bad_store_files_give_clear_errors(tmp_path):
 
 def make_version(path, version):
     """Turn a current store into the layout of schema ``version`` (1 or 2): version 2 had no
-    ``non_finite`` column and no claims table, version 1 also no ``champion_test`` column."""
+    ``non_finite_fitness`` column and no claims table, version 1 also no ``champion_test`` column."""
     db = sqlite3.connect(path)
-    db.execute("ALTER TABLE generations DROP COLUMN non_finite")
+    db.execute("ALTER TABLE generations DROP COLUMN non_finite_fitness")
     db.execute("DROP TABLE claims")
     if version == 1:
         db.execute("ALTER TABLE generations DROP COLUMN champion_test")
@@ -134,7 +134,7 @@ def test_an_older_store_is_read_and_upgraded_by_the_first_write(tmp_path, versio
         old = [r.to_dict() for r in store.records()]
     assert store.version == version
     # the missing columns read as their defaults; everything else reads back unchanged
-    missing = {"non_finite": 0, **({"champion_test": {}} if version == 1 else {})}
+    missing = {"non_finite_fitness": 0, **({"champion_test": {}} if version == 1 else {})}
     assert old == [{**r, "log": [{**g, **missing} for g in r["log"]]} for r in before]
     with ResultStore(path) as store:
         assert execute(plan(runs=3), store, progress=False)[:2] == (1, 2)
@@ -161,4 +161,4 @@ def test_a_failed_upgrade_leaves_the_older_store_as_it_was(tmp_path, monkeypatch
     with ResultStore(path) as store:
         assert store.version == 1 and len(list(store.records())) == 1
     columns = [c[1] for c in sqlite3.connect(path).execute("PRAGMA table_info(generations)")]
-    assert "champion_test" not in columns and "non_finite" not in columns
+    assert "champion_test" not in columns and "non_finite_fitness" not in columns
