@@ -33,3 +33,19 @@ def test_command_line_reports_a_missing_file(tmp_path, capsys) -> None:
     bad = tmp_path / "bad.json"
     bad.write_text(json.dumps({"nodes": "x"}))
     assert main(["--network", str(bad), "--out", str(tmp_path / "x.png")]) == 2
+
+
+def test_replay_of_a_stored_run(tmp_path) -> None:
+    from neuroyard.harness.campaign import CampaignPlan, TaskChoice, execute
+    from neuroyard.harness.evolver import EvolverSpec
+    from neuroyard.harness.store import ResultStore
+
+    store = tmp_path / "runs.db"
+    plan = CampaignPlan([EvolverSpec("hill-climber", {})], [TaskChoice("pole2-markov-v1")], 1, 1,
+                        200)  # fmt: skip
+    with ResultStore(store) as results:
+        execute(plan, results, progress=False)
+    store.chmod(0o444)  # the replay only reads the store
+    out = tmp_path / "replay.png"
+    assert main(["--store", str(store), "--run", "0", "--steps", "200", "--out", str(out)]) == 0
+    assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"

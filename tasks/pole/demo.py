@@ -82,7 +82,7 @@ def replay(
 
 def network_from_store(store_path: str | Path, task_id: str, run: int) -> tuple[Network, dict]:
     """Best network and task settings of run ``run`` on ``task_id`` in a results store."""
-    with ResultStore(store_path, create=False) as store:
+    with ResultStore(store_path, write=False) as store:
         for record in store.records(with_log=False):
             if record.task == task_id and record.run_index == run and record.best_network:
                 return from_dict(record.best_network), dict(record.task_settings)
