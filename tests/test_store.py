@@ -162,3 +162,38 @@ def test_a_failed_upgrade_leaves_the_older_store_as_it_was(tmp_path, monkeypatch
         assert store.version == 1 and len(list(store.records())) == 1
     columns = [c[1] for c in sqlite3.connect(path).execute("PRAGMA table_info(generations)")]
     assert "champion_test" not in columns and "non_finite_fitness" not in columns
+
+
+def test_claims_are_exclusive_expire_and_die_with_their_owner(tmp_path, monkeypatch):
+    from neuroyard.harness import store as store_module
+
+    with ResultStore(tmp_path / "c.db") as store:
+        keys = ["k1", "k2", "k3"]
+        here = store_module.owner_id()
+        assert store.claim(keys, "elsewhere:1:a", 2) == ["k1", "k2"]
+        # a live claim of another coordinator is respected
+        assert store.claim(keys, here, 3) == ["k3"]
+        assert store.claim(keys, here, 3) == []  # nothing is claimed twice
+        assert store.claimed_elsewhere(keys, here) == 2
+        # silent for longer than the expiry: the claims are void and may be taken over
+        later = time.time() + store_module.CLAIM_EXPIRY + 1
+        monkeypatch.setattr(store_module.time, "time", lambda: later)
+        assert store.claimed_elsewhere(keys, here) == 0
+        assert store.claim(keys, here, 3) == keys
+    with ResultStore(tmp_path / "d.db") as store:
+        # a claim of a process of this machine that no longer exists is void at once
+        dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
+                              capture_output=True, text=True).stdout.strip()  # fmt: skip
+        host = store_module.owner_id().split(":")[0]
+        assert store.claim(["k1"], f"{host}:{dead}:x", 1) == ["k1"]
+        assert store.claim(["k1"], "me", 1) == ["k1"]
+
+
+def test_a_run_stored_by_two_coordinators_is_kept_once(tmp_path):
+    with ResultStore(tmp_path / "twice.db") as store:
+        execute(plan(runs=1), store, progress=False)
+        (record,) = list(store.records())
+        (key,) = store.finished_keys()
+        assert store.save(key, 1, record) is False
+        assert store.db.execute("SELECT count(*) FROM runs").fetchone() == (1,)
+        assert store.db.execute("SELECT count(*) FROM generations").fetchone() == (len(record.log),)
