@@ -130,6 +130,8 @@ def execute(
                     finished = store.finished_keys()
                     remaining = [k for k in remaining if k not in finished]
                     if remaining:
+                        elsewhere = store.claimed_elsewhere(remaining, owner)
+                        bar.set_postfix_str(f"{elsewhere} running in another process")
                         time.sleep(WAIT_FOR_OTHERS)
                     continue
                 for item in executor.collect(timeout=1.0):
