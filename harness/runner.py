@@ -195,6 +195,8 @@ class _Clock:
         self.watch.enter(what, generation)
         try:
             return fn(*args)
+        except RunFault:
+            raise
         except MemoryError:
             raise RunFault(f"{call_label(what, generation)} ran out of memory") from None
         except (Exception, SystemExit) as exc:  # a plugin fault ends the run, not the campaign
@@ -204,6 +206,11 @@ class _Clock:
         finally:
             self.watch.leave()
             self.seconds += time.perf_counter() - start
+
+
+def _asked(evolver: Any, generation: int, max_batch: int) -> list[Network]:
+    """The evolver's next batch, checked (see :func:`_checked_batch`)."""
+    return _checked_batch(evolver.ask(), generation, max_batch)
 
 
 def _checked_batch(batch: Any, generation: int, max_batch: int) -> list[Network]:
@@ -357,7 +364,9 @@ def _generations(
     tested: set[bytes] = set()  # fingerprints of the networks success-tested in this run
     while record.evaluations < budget:
         generation = record.generations
-        batch = _checked_batch(clock.call("ask()", generation, evolver.ask), generation, max_batch)
+        # checked inside the watched call: a batch is the evolver's object, and reading it
+        # (its length, its items) runs the evolver's code, which the time limit bounds
+        batch = clock.call("ask()", generation, _asked, evolver, generation, max_batch)
         batch = batch[: budget - record.evaluations]  # never evaluate past the budget
         try:
             compiled = compile_batch(

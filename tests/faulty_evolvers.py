@@ -14,6 +14,7 @@ import os
 import signal
 import threading
 import time
+from collections.abc import Sequence
 
 from neuroyard.harness.network import Connection, Network, Node
 
@@ -164,6 +165,29 @@ class HangsInTell(Healthy):
             while time.monotonic() < end:
                 pass
         super().tell(evaluations)
+
+
+class _SlowSequence(Sequence):
+    """A batch whose length takes an hour to tell."""
+
+    def __init__(self, items):
+        self.items = items
+
+    def __len__(self):
+        time.sleep(3600)
+        return len(self.items)
+
+    def __getitem__(self, k):
+        return self.items[k]
+
+
+class LazyBatchHangs(Healthy):
+    """ask() returns a sequence that hangs when read: the reading belongs to the call, so
+    it is failed, 'ask() ran past N s in generation 2'."""
+
+    def ask(self):
+        batch = super().ask()
+        return _SlowSequence(batch) if self.faulty() else batch
 
 
 class ExitsInAsk(Healthy):

@@ -45,6 +45,7 @@ FAULTS = {
     "UnboundedOutputs": None,
     "HangsInAsk": "ask() in generation 2 ran past 1 s (the time limit)",
     "HangsInTell": "tell() in generation 2 ran past 1 s (the time limit)",
+    "LazyBatchHangs": "ask() in generation 2 ran past 1 s (the time limit)",
     "ExitsInAsk": "evolver process exited with status 1 during ask() in generation 2",
     "KilledInTell": "evolver process was killed by signal 9 (SIGKILL) during tell() in "
     "generation 2",
