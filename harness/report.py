@@ -329,8 +329,8 @@ def render(rows: Sequence[ReportRow], fmt: str = "text") -> str:
     notes = (
         "Evaluations, generations and sizes are over solved runs; success rate and ERT count "
         "every run (ERT = all evaluations / solved runs). failed: runs that broke (the evolver "
-        "raised, hung, died or broke the contract), listed with their reasons under \"Failed "
-        "runs\" when there are any, counted as not solved; the other unsolved runs spent "
+        'raised, hung, died or broke the contract), listed with their reasons under "Failed '
+        'runs" when there are any, counted as not solved; the other unsolved runs spent '
         "their budget. p: two-sided p-value that the "
         "measured and the published runs have the same mean (Welch's t-test) or the same "
         "success rate (Fisher's exact test), where the paper gives the run "

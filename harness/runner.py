@@ -186,9 +186,11 @@ def call_label(call: str, generation: int | None) -> str:
 class _Clock:
     """Makes every evolver call: times it, tells the watch, turns a fault into a RunFault."""
 
-    def __init__(self, watch: Watch) -> None:
+    def __init__(self, watch: Watch, memory_limit_mb: int | None) -> None:
         self.seconds = 0.0
         self.watch = watch
+        # named in the reason of a run that ran out of memory under a limit
+        self.memory_note = f" (memory limit {memory_limit_mb:,} MB)" if memory_limit_mb else ""
 
     def call(self, what: str, generation: int | None, fn, *args):
         start = time.perf_counter()
@@ -198,7 +200,9 @@ class _Clock:
         except RunFault:
             raise
         except MemoryError:
-            raise RunFault(f"{call_label(what, generation)} ran out of memory") from None
+            raise RunFault(
+                f"{call_label(what, generation)} ran out of memory{self.memory_note}"
+            ) from None
         except (Exception, SystemExit) as exc:  # a plugin fault ends the run, not the campaign
             raise RunFault(
                 f"{call_label(what, generation)} raised {type(exc).__name__}: {exc}"
@@ -281,14 +285,19 @@ def load_kernels(task_id: str, settings: Mapping[str, Any]) -> float:
     return time.perf_counter() - start
 
 
+def _task_of(spec: RunSpec) -> Any:
+    """The task instance of run ``spec``, built with the run's task seed."""
+    from neuroyard.tasks import make  # tasks sit above the harness core in the layering
+
+    return make(spec.task, seed=task_seed(spec.campaign_seed, spec.task, spec.run_index),
+                **spec.task_settings)  # fmt: skip
+
+
 def new_record(spec: RunSpec, task: Any = None) -> RunRecord:
     """The record of ``spec`` before it runs: seeds, budget, settings, versions, host.
     ``task``: the run's task instance, built here when not given."""
-    from neuroyard.tasks import make  # tasks sit above the harness core in the layering
-
-    t_seed = task_seed(spec.campaign_seed, spec.task, spec.run_index)
     if task is None:
-        task = make(spec.task, seed=t_seed, **spec.task_settings)
+        task = _task_of(spec)
     return RunRecord(
         evolver=spec.evolver.name,
         config=dict(spec.evolver.config),
@@ -298,7 +307,7 @@ def new_record(spec: RunSpec, task: Any = None) -> RunRecord:
         run_index=spec.run_index,
         campaign_seed=spec.campaign_seed,
         seed=evolver_seed(spec.campaign_seed, spec.evolver.name, spec.task, spec.run_index),
-        task_seed=t_seed,
+        task_seed=task.seed,
         budget=spec.budget if spec.budget is not None else task.spec.default_budget,
         versions=provenance.versions(),
         host=provenance.host(),
@@ -316,16 +325,13 @@ def run_one(
     ``watch`` is told of every evolver call (a supervisor bounds their time); ``max_batch``
     is the most networks one ``ask()`` may return; ``memory_limit_mb``, when the process
     runs under a memory limit, is named in the reason of a run that ran out of memory."""
-    from neuroyard.tasks import make  # tasks sit above the harness core in the layering
-
     wall_start = time.perf_counter()
     kernel_load = load_kernels(spec.task, spec.task_settings)
-    task = make(spec.task, seed=task_seed(spec.campaign_seed, spec.task, spec.run_index),
-                **spec.task_settings)  # fmt: skip
+    task = _task_of(spec)
     record = new_record(spec, task)
     budget = record.budget
     seed = record.seed
-    clock = _Clock(watch or _Unwatched())
+    clock = _Clock(watch or _Unwatched(), memory_limit_mb)
     evolver = None
     try:
         evolver = clock.call("building the evolver", None, spec.evolver.build)
@@ -339,10 +345,9 @@ def run_one(
     except MemoryError:  # in the harness's part of a generation (compiling, evaluating)
         record.status = FAILED
         record.failure = (
-            f"the run ran out of memory while the harness evaluated generation {record.generations}"
+            "the run ran out of memory while the harness evaluated generation "
+            f"{record.generations}{clock.memory_note}"
         )
-    if record.status == FAILED and memory_limit_mb and "ran out of memory" in record.failure:
-        record.failure += f" (memory limit {memory_limit_mb:,} MB)"
     if evolver is not None and hasattr(evolver, "stop"):
         _stop(evolver, clock, record)
     wall = time.perf_counter() - wall_start

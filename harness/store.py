@@ -202,27 +202,23 @@ class ResultStore:
         the file cannot take (disk full, read-only, locked past the timeout) rolls back and
         is a :class:`StoreError` naming the path and the reason."""
         try:
-            with self._transaction() as db:
-                yield db
+            self.db.execute("BEGIN IMMEDIATE")
+            try:
+                for version in range(self.version, SCHEMA_VERSION):
+                    for statement in _UPGRADES[version]:
+                        self.db.execute(statement)
+                if self.version < SCHEMA_VERSION:
+                    self.db.execute(
+                        "UPDATE meta SET value=? WHERE key='schema_version'",
+                        (str(SCHEMA_VERSION),),
+                    )
+                yield self.db
+                self.db.commit()
+            except BaseException:
+                self.db.rollback()
+                raise
         except sqlite3.OperationalError as exc:
             raise StoreError(f"results store {self.path}: {_reason(exc, writing=True)}") from None
-
-    @contextmanager
-    def _transaction(self) -> Iterator[sqlite3.Connection]:
-        self.db.execute("BEGIN IMMEDIATE")
-        try:
-            for version in range(self.version, SCHEMA_VERSION):
-                for statement in _UPGRADES[version]:
-                    self.db.execute(statement)
-            if self.version < SCHEMA_VERSION:
-                self.db.execute(
-                    "UPDATE meta SET value=? WHERE key='schema_version'", (str(SCHEMA_VERSION),)
-                )
-            yield self.db
-        except BaseException:
-            self.db.rollback()
-            raise
-        self.db.commit()
         self.version = SCHEMA_VERSION  # reached only when the commit went through
 
     def __enter__(self) -> ResultStore:

@@ -130,14 +130,10 @@ class _Worker:
         """(evolver call in progress or "", its generation, seconds it has run)."""
         started = self.status[worker.STARTED]
         code = int(self.status[worker.CALL])
-        generation = int(self.status[worker.GENERATION])
+        generation = worker.generation_of(self.status)
         if code == 0 or started != self.status[worker.STARTED]:
             return "", None, 0.0  # no call, or one that just changed: look again next time
-        return (
-            worker.CALLS[code],
-            (None if generation < 0 else generation),
-            (time.monotonic() - started),
-        )
+        return worker.CALLS[code], generation, time.monotonic() - started
 
 
 class Supervisor:

@@ -123,9 +123,9 @@ def main(
             return
         try:
             _limit_memory(memory_limit_mb)
-            record = run_one(spec, watch, max_batch, memory_limit_mb)
-            _limit_memory(None)
-            conn.send(("record", record))
+            reply = ("record", run_one(spec, watch, max_batch, memory_limit_mb))
         except BaseException:  # a fault of the harness: the coordinator logs it
+            reply = ("error", traceback.format_exc())
+        finally:
             _limit_memory(None)
-            conn.send(("error", traceback.format_exc()))
+        conn.send(reply)
