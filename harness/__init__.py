@@ -1,4 +1,6 @@
-"""neuroyard harness: network format, compiled evaluation, evolver contract, runner, store, CLI."""
+"""neuroyard harness: ``core`` (network format, kernels, evolver contract) at the bottom of
+the house; ``records``, ``execution``, ``reports`` and ``cli`` above the tasks and the
+reference evolvers (see DEVELOPERS.md, Layers)."""
 
 from importlib.metadata import PackageNotFoundError, version
 

@@ -21,9 +21,9 @@ from typing import Any
 
 import numpy as np
 
-from neuroyard.harness.evolver import Evaluation, Problem
-from neuroyard.harness.network import Network
-from neuroyard.harness.settings import Option, resolve_options
+from neuroyard.harness.core.evolver import Evaluation, Problem
+from neuroyard.harness.core.network import Network
+from neuroyard.harness.core.options import Option, resolve_options
 
 from .fixed_topology import FixedTopology
 

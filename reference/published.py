@@ -34,7 +34,7 @@ from functools import cache
 from importlib import resources
 from typing import Any
 
-from neuroyard.harness.errors import NeuroyardError
+from neuroyard.harness.core.errors import NeuroyardError
 
 # Tags of LITERATURE.md; only the first group may gate a pass/fail check.
 GATE_PROVENANCE = ("VERIFIED", "VERIFIED-QUOTE", "SECONDARY-ACADEMIC", "SECONDARY-NOTES")

@@ -20,13 +20,15 @@ from __future__ import annotations
 from abc import ABC, abstractmethod
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from pathlib import Path
 from typing import Any, ClassVar
 
-from neuroyard.harness.batch import CompiledBatch
-from neuroyard.harness.compiled import CompiledNetwork
-from neuroyard.harness.errors import TaskError
-from neuroyard.harness.evolver import Evaluation, Problem
-from neuroyard.harness.settings import matches_default
+from neuroyard.harness.core.batch import CompiledBatch
+from neuroyard.harness.core.compiled import CompiledNetwork
+from neuroyard.harness.core.errors import TaskError
+from neuroyard.harness.core.evolver import Evaluation, Problem
+from neuroyard.harness.core.network import Network
+from neuroyard.harness.core.options import matches_default
 
 
 @dataclass(frozen=True)
@@ -108,6 +110,12 @@ class Task(ABC):
         Override with a kernel that loops over :func:`~neuroyard.harness.batch.member`
         when one evaluation is so cheap that a Python call per network would dominate."""
         return [self.evaluate(batch.network(i)) for i in range(batch.size)]
+
+    def replay(self, network: Network, steps: int, out: Path) -> str:
+        """Optional: run ``network`` for at most ``steps`` steps, draw what it did into the
+        image file ``out`` and return a one-line summary (``neuroyard replay``). Tasks
+        without a picture of an episode raise :class:`TaskError`."""
+        raise TaskError(f"task {self.id} has no replay")
 
     def problem(self, budget: int) -> Problem:
         """The :class:`Problem` an evolver is started with."""

@@ -25,10 +25,10 @@ from typing import Any
 import numba
 import numpy as np
 
-from neuroyard.harness.batch import CompiledBatch, member
-from neuroyard.harness.compiled import CompiledNetwork, new_state, reset, step
-from neuroyard.harness.errors import TaskError
-from neuroyard.harness.evolver import Evaluation
+from neuroyard.harness.core.batch import CompiledBatch, member
+from neuroyard.harness.core.compiled import CompiledNetwork, new_state, reset, step
+from neuroyard.harness.core.errors import TaskError
+from neuroyard.harness.core.evolver import Evaluation
 
 from .base import SuccessCheck, Task, TaskSpec
 from .registry import register, retire

@@ -11,7 +11,7 @@ import re
 from importlib.metadata import entry_points
 from typing import Any
 
-from neuroyard.harness.errors import TaskError
+from neuroyard.harness.core.errors import TaskError
 
 from .base import Task, TaskSpec
 

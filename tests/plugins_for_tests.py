@@ -6,7 +6,7 @@ Not part of the package; tests put this folder on sys.path and load them by
 
 from __future__ import annotations
 
-from neuroyard.harness.network import Connection, Network, Node
+from neuroyard.harness.core.network import Connection, Network, Node
 
 
 def constant_network(weight: float = 0.0, activation: str = "neat_sigmoid") -> Network:

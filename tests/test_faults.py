@@ -18,12 +18,13 @@ from pathlib import Path
 
 import pytest
 
-from neuroyard.harness.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.cli import main
-from neuroyard.harness.evolver import EvolverSpec
-from neuroyard.harness.runner import RunSpec, run_one
-from neuroyard.harness.store import ResultStore
-from neuroyard.harness.supervisor import Limits
+from neuroyard.harness.cli.main import main
+from neuroyard.harness.core.evolver_registry import EvolverSpec
+from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.harness.execution.runner import run_one
+from neuroyard.harness.execution.supervisor import Limits
+from neuroyard.harness.records.runs import RunSpec
+from neuroyard.harness.records.store import ResultStore
 
 HERE = Path(__file__).parent
 TIME_LIMIT, MEMORY_LIMIT = 1.0, 300

@@ -10,8 +10,8 @@ import dataclasses
 
 import pytest
 
-from neuroyard.harness.errors import EvolverError
-from neuroyard.harness.evolver import EvolverSpec, load_factory
+from neuroyard.harness.core.errors import EvolverError
+from neuroyard.harness.core.evolver_registry import EvolverSpec, load_factory
 from neuroyard.reference.neat import NeatConfig, NeatEvolver, make_config, parameters
 
 

@@ -9,9 +9,9 @@ from __future__ import annotations
 
 import pytest
 
-from neuroyard.harness.compiled import compile_network
-from neuroyard.harness.evolver import Evaluation
-from neuroyard.harness.network import validate
+from neuroyard.harness.core.batch import compile_network
+from neuroyard.harness.core.evolver import Evaluation
+from neuroyard.harness.core.network import validate
 from neuroyard.reference.neat import NeatEvolver
 from neuroyard.tasks import make
 

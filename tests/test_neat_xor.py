@@ -8,9 +8,10 @@ from __future__ import annotations
 
 import pytest
 
-from neuroyard.harness.evolver import EvolverSpec
-from neuroyard.harness.network import from_dict
-from neuroyard.harness.runner import RunSpec, run_one
+from neuroyard.harness.core.evolver_registry import EvolverSpec
+from neuroyard.harness.core.network import from_dict
+from neuroyard.harness.execution.runner import run_one
+from neuroyard.harness.records.runs import RunSpec
 
 BUDGET = 30_000  # issue 3 acceptance: 10 fixed-seed runs solved within 30,000 evaluations
 

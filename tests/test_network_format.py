@@ -11,9 +11,9 @@ import numpy as np
 import pytest
 import scipy.special
 
-from neuroyard.harness.activations import CODES, NAMES, apply, reference
-from neuroyard.harness.errors import NetworkError
-from neuroyard.harness.network import (
+from neuroyard.harness.core.activations import CODES, NAMES, apply, reference
+from neuroyard.harness.core.errors import NetworkError
+from neuroyard.harness.core.network import (
     MODES,
     NODE_KINDS,
     Connection,

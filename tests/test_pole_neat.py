@@ -6,8 +6,9 @@ tests/slow/test_study_pole.py; there NEAT needed 435 evaluations on average.
 
 from __future__ import annotations
 
-from neuroyard.harness.evolver import EvolverSpec
-from neuroyard.harness.runner import RunSpec, run_one
+from neuroyard.harness.core.evolver_registry import EvolverSpec
+from neuroyard.harness.execution.runner import run_one
+from neuroyard.harness.records.runs import RunSpec
 
 SHORT_BUDGET = 10_000  # evaluations per run
 

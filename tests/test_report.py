@@ -9,9 +9,9 @@ import pytest
 from scipy.stats import binomtest, ttest_ind
 from scipy.stats import t as student_t
 
-from neuroyard.harness import report
-from neuroyard.harness.runner import RunRecord
-from neuroyard.harness.stats import (
+from neuroyard.harness.records.runs import RunRecord
+from neuroyard.harness.reports import report
+from neuroyard.harness.reports.stats import (
     expected_running_time,
     fisher_p_value,
     summarize,

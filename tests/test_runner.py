@@ -6,9 +6,10 @@ from pathlib import Path
 
 import pytest
 
-from neuroyard.harness import seeds
-from neuroyard.harness.evolver import EvolverSpec
-from neuroyard.harness.runner import RunSpec, load_kernels, run_one
+from neuroyard.harness.core.evolver_registry import EvolverSpec
+from neuroyard.harness.execution import seeds
+from neuroyard.harness.execution.runner import load_kernels, run_one
+from neuroyard.harness.records.runs import RunSpec
 from neuroyard.tasks.base import SuccessCheck
 from neuroyard.tasks.logic import Xor
 

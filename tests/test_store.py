@@ -10,10 +10,10 @@ import time
 
 import pytest
 
-from neuroyard.harness.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.errors import StoreError
-from neuroyard.harness.evolver import EvolverSpec
-from neuroyard.harness.store import ResultStore
+from neuroyard.harness.core.errors import StoreError
+from neuroyard.harness.core.evolver_registry import EvolverSpec
+from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.harness.records.store import ResultStore
 
 
 def plan(runs=4, seed=3):
@@ -49,7 +49,7 @@ def test_store_left_by_a_killed_process_keeps_every_finished_run(tmp_path):
     cmd = [
         sys.executable,
         "-m",
-        "neuroyard.harness.cli",
+        "neuroyard.harness.cli.main",
         "run",
         "--evolver",
         "rwg",
@@ -165,7 +165,7 @@ def test_a_failed_upgrade_leaves_the_older_store_as_it_was(tmp_path, monkeypatch
 
 
 def test_claims_are_exclusive_expire_and_die_with_their_owner(tmp_path, monkeypatch):
-    from neuroyard.harness import store as store_module
+    from neuroyard.harness.records import store as store_module
 
     with ResultStore(tmp_path / "c.db") as store:
         keys = ["k1", "k2", "k3"]

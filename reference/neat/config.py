@@ -16,7 +16,7 @@ from functools import cache
 from importlib import resources
 from typing import Any
 
-from neuroyard.harness.settings import matches_default
+from neuroyard.harness.core.options import matches_default
 
 
 @dataclass(frozen=True)

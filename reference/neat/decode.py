@@ -8,7 +8,7 @@ number of each connection, in connection order.
 
 from __future__ import annotations
 
-from neuroyard.harness.network import Connection, Mode, Network, Node
+from neuroyard.harness.core.network import Connection, Mode, Network, Node
 
 from .genome import Genome, Layout
 

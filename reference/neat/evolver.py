@@ -7,8 +7,8 @@ import random
 from collections.abc import Sequence
 from typing import Any
 
-from neuroyard.harness.evolver import Evaluation, Problem
-from neuroyard.harness.network import Network
+from neuroyard.harness.core.evolver import Evaluation, Problem
+from neuroyard.harness.core.network import Network
 
 from .config import NeatConfig, make_config
 from .decode import Decoder

@@ -18,13 +18,15 @@ choice is marked ``from memory`` and explained beside the setting below.
 from __future__ import annotations
 
 import math
+from pathlib import Path
 from typing import Any, ClassVar
 
 import numpy as np
 
-from neuroyard.harness.compiled import CompiledNetwork
-from neuroyard.harness.errors import TaskError
-from neuroyard.harness.evolver import Evaluation
+from neuroyard.harness.core.compiled import CompiledNetwork
+from neuroyard.harness.core.errors import TaskError
+from neuroyard.harness.core.evolver import Evaluation
+from neuroyard.harness.core.network import Network
 from neuroyard.reference.published import protocol as protocol_table
 
 from ..base import SuccessCheck, Task, TaskSpec
@@ -32,6 +34,7 @@ from ..registry import register
 from .episodes import FORCE_MAPPINGS, JIGGLE_WINDOW, EpisodeRules, balance, count_balanced
 from .generalization import generalization_starts, protocol
 from .physics import INTEGRATORS, WIELAND_1991, Physics, make_physics
+from .replay import replay
 
 NEAT_2002 = (
     "Stanley, K. O. & Miikkulainen, R. (2002). Evolving neural networks through augmenting "
@@ -249,6 +252,10 @@ class PoleBalancing(Task):
         steps = protocol().episode_steps
         starts = self.generalization_starts
         return int(count_balanced(net, self.physics, self.rules, starts, steps))
+
+    def replay(self, network: Network, steps: int, out: Path) -> str:
+        """Plot cart position and pole angles while ``network`` balances (PNG at ``out``)."""
+        return replay(self, network, steps, out)
 
     def observations(self) -> tuple[str, ...]:
         """The inputs in input-node order, each with its divisor (see :meth:`_rules`)."""

@@ -7,7 +7,7 @@ Run with:
 
 (defaults: 3 repeats, 2 workers). A standalone script, not a pytest test.
 
-What is measured: the wall seconds of one campaign, three ``python -m neuroyard.harness.cli
+What is measured: the wall seconds of one campaign, three ``python -m neuroyard.harness.cli.main
 run`` calls in sequence into one fresh store, all with the reference NEAT evolver, campaign
 seed 1, ``--workers W`` and ``--quiet``: XOR 100 runs (the highest ``xor-vN`` id of that
 side), single pole with velocities 20 runs (``pole1-markov-v1``), double pole with
@@ -125,8 +125,8 @@ def git(*args: str) -> str:
 
 
 def cli(side: Side, *args: str, cwd: Path) -> str:
-    """Stdout of ``python -m neuroyard.harness.cli ARGS`` run as ``side`` in ``cwd``."""
-    command = [sys.executable, "-m", "neuroyard.harness.cli", *args]
+    """Stdout of ``python -m neuroyard.harness.cli.main ARGS`` run as ``side`` in ``cwd``."""
+    command = [sys.executable, "-m", "neuroyard.harness.cli.main", *args]
     return _run(command, f"{side.name} side: neuroyard {' '.join(args)}", env=side.env, cwd=cwd)
 
 

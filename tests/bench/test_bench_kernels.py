@@ -2,8 +2,8 @@
 
     pytest -m bench --benchmark-enable tests/bench/test_bench_kernels.py
 
-Each workload (results/benchmarks/kernel_workloads.py, shared with the script
-results/benchmarks/kernel_speed.py) is timed through the numba kernels (also by
+Each workload (tests/bench/kernel_workloads.py, shared with the script
+tests/bench/kernel_speed.py, which writes results/benchmarks/kernel_speed.json) is timed through the numba kernels (also by
 pytest-benchmark, for its table) and through the plain-Python ReferenceNet in interleaved
 rounds of the same test; the ratio is reported in ``extra_info`` and printed. Targets:
 >= 30x for the recurrent 100,000-step episode; a second process with a warm numba cache
@@ -13,13 +13,9 @@ finishes its first evaluation in < 1 s.
 from __future__ import annotations
 
 import statistics
-import sys
-from pathlib import Path
 
+import kernel_workloads as workloads  # tests/bench is on pytest's pythonpath
 import pytest
-
-sys.path.insert(0, str(Path(__file__).resolve().parents[2] / "results" / "benchmarks"))
-import kernel_workloads as workloads  # noqa: E402  (shared with kernel_speed.py)
 
 pytestmark = pytest.mark.bench
 

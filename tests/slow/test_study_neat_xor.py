@@ -27,10 +27,10 @@ from pathlib import Path
 
 import pytest
 
-from neuroyard.harness import report
-from neuroyard.harness.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.evolver import EvolverSpec
-from neuroyard.harness.store import ResultStore
+from neuroyard.harness.core.evolver_registry import EvolverSpec
+from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.harness.records.store import ResultStore
+from neuroyard.harness.reports import report
 from neuroyard.reference.published import figures_for
 
 OUT = Path(__file__).resolve().parents[2] / "results" / "neat_xor"

@@ -21,11 +21,11 @@ from typing import Any
 
 import pytest
 
-from neuroyard.harness.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.evolver import EvolverSpec
-from neuroyard.harness.runner import RunRecord
-from neuroyard.harness.stats import GroupSummary, summarize
-from neuroyard.harness.store import ResultStore
+from neuroyard.harness.core.evolver_registry import EvolverSpec
+from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.harness.records.runs import RunRecord
+from neuroyard.harness.records.store import ResultStore
+from neuroyard.harness.reports.stats import GroupSummary, summarize
 from neuroyard.reference.published import ReferenceFigure, figures_for
 from neuroyard.tasks.pole.generalization import protocol
 

@@ -34,9 +34,10 @@ from dataclasses import dataclass
 from multiprocessing.connection import wait
 from typing import Any
 
-from . import worker
-from .evolver import MAX_BATCH
-from .runner import FAILED, RunRecord, RunSpec, call_label, new_record, run_one
+from neuroyard.harness.core.evolver import MAX_BATCH
+from neuroyard.harness.execution import worker
+from neuroyard.harness.execution.runner import call_label, new_record, run_one
+from neuroyard.harness.records.runs import FAILED, RunRecord, RunSpec
 
 POLL = 0.2  # s between checks of the running calls' time (ours)
 DEFAULT_TIME_LIMIT = 60.0  # s per evolver call (ours: far above any reference evolver's call)

@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 from scipy.stats import binomtest, fisher_exact, ttest_ind_from_stats
 
-from .runner import RunRecord
+from neuroyard.harness.records.runs import RunRecord
 
 
 def wilson_interval(successes: int, trials: int, confidence: float = 0.95) -> tuple[float, float]:

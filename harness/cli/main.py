@@ -14,17 +14,28 @@ import os
 import sys
 import traceback
 from collections.abc import Sequence
+from dataclasses import asdict
 from pathlib import Path
 from typing import Any, NoReturn
 
-from . import crashlog, jsonsafe
-from . import report as report_mod
-from .campaign import CampaignPlan, TaskChoice, execute
-from .errors import NeuroyardError
-from .evolver import MAX_BATCH, EvolverSpec, read_config
-from .runner import RunFault, bound_fitness
-from .store import DEFAULT_PATH, ResultStore
-from .supervisor import DEFAULT_MEMORY_LIMIT_MB, DEFAULT_TIME_LIMIT, Limits
+from neuroyard.harness.cli import replay
+from neuroyard.harness.core import jsonsafe
+from neuroyard.harness.core.batch import compile_network
+from neuroyard.harness.core.errors import NeuroyardError
+from neuroyard.harness.core.evolver import MAX_BATCH
+from neuroyard.harness.core.evolver_registry import EvolverSpec, load_factory, read_config
+from neuroyard.harness.core.network import validate
+from neuroyard.harness.execution import crashlog
+from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.harness.execution.runner import RunFault, bound_fitness
+from neuroyard.harness.execution.supervisor import (
+    DEFAULT_MEMORY_LIMIT_MB,
+    DEFAULT_TIME_LIMIT,
+    Limits,
+)
+from neuroyard.harness.records.store import DEFAULT_PATH, ResultStore
+from neuroyard.harness.reports import report as report_mod
+from neuroyard.tasks import make, retired, specs
 
 DEFAULT_EVOLVER = "neat"  # the best reference evolver on the quick suite
 QUICK_SUITE = ("xor-v2",)
@@ -148,19 +159,19 @@ def build_parser() -> argparse.ArgumentParser:
     ev.add_argument("network", type=Path, help="network JSON file")
     ev.add_argument("--task", required=True)
     ev.add_argument("--setting", type=_assignment, action="append", default=[], metavar="KEY=VALUE")
+
+    replay.add_parser(sub, _positive)
     return p
 
 
 NETWORK_CONVENTIONS = (
     "networks: the k-th input node gets the k-th input, the k-th output node gives the k-th "
     "output; a bias node (value 1.0) is optional, and every hidden and output node also has "
-    "its own bias term (harness/network.py)"
+    "its own bias term (harness/core/network.py)"
 )
 
 
 def _cmd_tasks(args: argparse.Namespace) -> None:
-    from neuroyard.tasks import retired, specs
-
     rows = specs()
     if args.format == "json":
         print(jsonsafe.dumps([_spec_json(s) for s in rows], indent=2))
@@ -188,18 +199,12 @@ def _cmd_tasks(args: argparse.Namespace) -> None:
 
 
 def _spec_json(spec: Any) -> dict[str, Any]:
-    from dataclasses import asdict
-
     doc = asdict(spec)
     doc["settings"] = dict(spec.settings)
     return doc
 
 
 def _plan(args: argparse.Namespace) -> CampaignPlan:
-    from neuroyard.tasks import make
-
-    from .evolver import load_factory
-
     config: dict[str, Any] = read_config(args.config) if args.config else {}
     config.update(dict(args.param))
     evolvers = [EvolverSpec(name, config) for name in (args.evolver or [DEFAULT_EVOLVER])]
@@ -257,19 +262,8 @@ def _cmd_export(args: argparse.Namespace) -> None:
 
 
 def _cmd_evaluate(args: argparse.Namespace) -> None:
-    from neuroyard.tasks import make
-
-    from .compiled import compile_network
-    from .network import loads, validate
-
     task = make(args.task, **dict(args.setting))
-    try:
-        text = args.network.read_text()
-    except OSError as exc:
-        raise NeuroyardError(
-            f"network file {args.network}: cannot read it ({exc.strerror})"
-        ) from None
-    network = loads(text, where=f"network file {args.network}")
+    network = replay.network_from_file(args.network)
     validate(network, task.spec.inputs, task.spec.outputs, where=f"network file {args.network}")
     compiled = compile_network(network)
     spec = task.spec
@@ -303,6 +297,7 @@ COMMANDS = {
     "report": _cmd_report,
     "export": _cmd_export,
     "evaluate": _cmd_evaluate,
+    "replay": replay.command,
 }
 
 

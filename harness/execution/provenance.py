@@ -11,7 +11,7 @@ from pathlib import Path
 import numba
 import numpy
 
-from . import __version__
+from neuroyard.harness import __version__
 
 
 @cache

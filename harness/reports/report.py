@@ -24,11 +24,10 @@ from typing import Any
 
 from tabulate import tabulate
 
+from neuroyard.harness.core import jsonsafe
+from neuroyard.harness.records.runs import FAILED, RunRecord
+from neuroyard.harness.reports.stats import GroupSummary, fisher_p_value, summarize, welch_p_value
 from neuroyard.reference.published import figures_for
-
-from . import jsonsafe
-from .runner import FAILED, RunRecord
-from .stats import GroupSummary, fisher_p_value, summarize, welch_p_value
 
 FORMATS = ("text", "json", "markdown")
 # Metrics that describe the experiment (sample size, population) rather than its outcome:

@@ -1,4 +1,7 @@
-"""Compilation of a :class:`Network` into flat arrays, and the numba kernels that run them.
+"""The flat-array form of a network and the numba kernels that run it.
+
+Networks are flattened by :mod:`.batch` (the compiler); this module knows nothing of the
+network format.
 
 Layout of a compiled network with n nodes: slots ``0 .. n_inputs-1`` hold the input
 nodes in list order, the next ``n_bias`` slots hold bias nodes (value 1.0), the remaining
@@ -19,8 +22,7 @@ from typing import NamedTuple
 import numba
 import numpy as np
 
-from .activations import apply
-from .network import Network
+from neuroyard.harness.core.activations import apply
 
 
 class CompiledNetwork(NamedTuple):
@@ -51,16 +53,6 @@ def fingerprint(net: CompiledNetwork) -> bytes:
     return digest.digest()
 
 
-def compile_network(
-    network: Network, inputs: int | None = None, outputs: int | None = None, where: str = "network"
-) -> CompiledNetwork:
-    """Check ``network`` against every rule of the format (a :class:`NetworkError` names the
-    offender, prefixed by ``where``) and flatten it; see :mod:`.batch`, which does the work."""
-    from .batch import compile_batch  # batch builds on this module's types
-
-    return compile_batch([network], inputs, outputs, lambda _: where).network(0)
-
-
 @numba.njit(cache=True)
 def new_state(net: CompiledNetwork) -> tuple[np.ndarray, np.ndarray]:
     """Allocate (values, scratch) buffers for ``net``; call :func:`reset` before use."""
@@ -80,7 +72,7 @@ def reset(net: CompiledNetwork, values: np.ndarray) -> None:
 
 # _nrt=False: step allocates nothing, and without the runtime's reference counting on the
 # arrays it touches it runs about 2x faster per call inside episode loops (measured in
-# results/benchmarks/kernel_speed.py). It is why the state copy below is a plain loop.
+# tests/bench/kernel_speed.py). It is why the state copy below is a plain loop.
 @numba.njit(cache=True, _nrt=False)
 def step(
     net: CompiledNetwork,

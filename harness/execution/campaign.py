@@ -23,12 +23,12 @@ from typing import Any, NamedTuple
 
 from tqdm import tqdm
 
-from . import crashlog
-from .errors import StoreError
-from .evolver import EvolverSpec
-from .runner import RunRecord, RunSpec
-from .store import ResultStore, owner_id
-from .supervisor import InProcess, Limits, Supervisor
+from neuroyard.harness.core.errors import StoreError
+from neuroyard.harness.core.evolver_registry import EvolverSpec
+from neuroyard.harness.execution import crashlog
+from neuroyard.harness.execution.supervisor import InProcess, Limits, Supervisor
+from neuroyard.harness.records.runs import RunRecord, RunSpec
+from neuroyard.harness.records.store import ResultStore, owner_id
 
 WAIT_FOR_OTHERS = 1.0  # s between looks at runs that other coordinators are running
 

@@ -23,6 +23,8 @@ import traceback
 from multiprocessing.connection import Connection
 from typing import Any
 
+from neuroyard.harness.execution.runner import run_one
+
 # Evolver calls a worker reports, by code (0: none, the harness's own code or idle).
 CALLS = (
     "",
@@ -111,8 +113,6 @@ def main(
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     os.setpgrp()
     threading.Thread(target=_exit_with_parent, args=(parent,), daemon=True).start()
-    from .runner import run_one
-
     watch = SharedWatch(status)
     while True:
         try:

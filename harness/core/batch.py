@@ -19,10 +19,10 @@ from typing import NamedTuple
 import numba
 import numpy as np
 
-from .activations import CODES
-from .compiled import CompiledNetwork
-from .errors import NetworkError
-from .network import Connection, Network, Node, check
+from neuroyard.harness.core.activations import CODES
+from neuroyard.harness.core.compiled import CompiledNetwork
+from neuroyard.harness.core.errors import NetworkError
+from neuroyard.harness.core.network import Connection, Network, Node, check
 
 _KIND = {"input": 0, "bias": 1, "hidden": 2, "output": 3}
 _MODE = {"feedforward": 0, "recurrent": 1}
@@ -388,3 +388,11 @@ def compile_batch(
     for k in range(bad, len(networks)):  # explain the first bad network in words
         check(networks[k], inputs, outputs, label(k))
     raise NetworkError(f"{label(bad)}: rejected by the compiler but not by check()")
+
+
+def compile_network(
+    network: Network, inputs: int | None = None, outputs: int | None = None, where: str = "network"
+) -> CompiledNetwork:
+    """Check ``network`` against every rule of the format (a :class:`NetworkError` names the
+    offender, prefixed by ``where``) and flatten it; a batch of one, see :func:`compile_batch`."""
+    return compile_batch([network], inputs, outputs, lambda _: where).network(0)

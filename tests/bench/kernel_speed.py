@@ -1,6 +1,6 @@
-"""Measure the kernel speed workloads and write ``kernel_speed.json`` beside this file.
+"""Measure the kernel speed workloads and write ``results/benchmarks/kernel_speed.json``.
 
-    python results/benchmarks/kernel_speed.py
+    python tests/bench/kernel_speed.py
 
 For each workload of :mod:`kernel_workloads` (the same ones the pytest benchmark runs):
 median wall time and median CPU time of this process, for the numba kernels and for the
@@ -22,7 +22,7 @@ import kernel_workloads as workloads
 from tabulate import tabulate
 
 WARM_START_REPEATS = 5
-OUTPUT = Path(__file__).with_name("kernel_speed.json")
+OUTPUT = Path(__file__).resolve().parents[2] / "results" / "benchmarks" / "kernel_speed.json"
 
 
 def measure(work: workloads.Workload) -> dict[str, Any]:

@@ -45,9 +45,9 @@ from dataclasses import asdict
 from pathlib import Path
 from typing import Any
 
-from . import jsonsafe
-from .errors import StoreError
-from .runner import GenerationLog, RunRecord
+from neuroyard.harness.core import jsonsafe
+from neuroyard.harness.core.errors import StoreError
+from neuroyard.harness.records.runs import GenerationLog, RunRecord
 
 SCHEMA_VERSION = 3
 READABLE_VERSIONS = tuple(str(v) for v in range(1, SCHEMA_VERSION + 1))  # older ones upgrade

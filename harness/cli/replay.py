@@ -1,0 +1,67 @@
+"""``neuroyard replay``: run a stored or given network on its task and draw the episode.
+
+The network is the best one of a run in a results store (replayed under the task settings
+recorded with the run) or a network JSON file; the task draws the picture
+(:meth:`~neuroyard.tasks.base.Task.replay`).
+"""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+from typing import Any
+
+from neuroyard.harness.core.errors import NeuroyardError
+from neuroyard.harness.core.network import Network, from_dict, loads
+from neuroyard.harness.records.store import ResultStore
+from neuroyard.tasks import make
+
+DEFAULT_TASK = "pole2-markov-v1"
+
+
+def add_parser(sub: Any, positive: Any) -> None:
+    """Register the ``replay`` subcommand on the command line's subparsers."""
+    p = sub.add_parser("replay", help="run a network on its task and draw the episode")
+    source = p.add_mutually_exclusive_group(required=True)
+    source.add_argument(
+        "--store", type=Path, help="results store; replays the best network of --run"
+    )
+    source.add_argument("--network", type=Path, help="network JSON file")
+    p.add_argument("--task", default=DEFAULT_TASK, help=f"task id (default {DEFAULT_TASK})")
+    p.add_argument("--run", type=int, default=0, help="run index in the store (default 0)")
+    p.add_argument(
+        "--steps", type=positive, default=2000, help="most steps to replay (default 2000)"
+    )
+    p.add_argument("--out", type=Path, required=True, help="image file to write (PNG)")
+
+
+def command(args: argparse.Namespace) -> None:
+    """Replay and print the task's one-line summary."""
+    if args.store:
+        network, settings = network_from_store(args.store, args.task, args.run)
+    else:
+        network, settings = network_from_file(args.network), {}
+    task = make(args.task, **settings)
+    try:
+        summary = task.replay(network, args.steps, args.out)
+    except OSError as exc:
+        raise NeuroyardError(f"image file {args.out}: cannot write it ({exc.strerror})") from None
+    print(summary)
+
+
+def network_from_file(path: Path) -> Network:
+    """The network in the JSON file ``path``; a one-line error names the file."""
+    try:
+        text = path.read_text()
+    except OSError as exc:
+        raise NeuroyardError(f"network file {path}: cannot read it ({exc.strerror})") from None
+    return loads(text, where=f"network file {path}")
+
+
+def network_from_store(store_path: Path, task_id: str, run: int) -> tuple[Network, dict]:
+    """Best network and task settings of run ``run`` on ``task_id`` in a results store."""
+    with ResultStore(store_path, write=False) as store:
+        for record in store.records(with_log=False):
+            if record.task == task_id and record.run_index == run and record.best_network:
+                return from_dict(record.best_network), dict(record.task_settings)
+    raise NeuroyardError(f"{store_path}: no run {run} of task {task_id} with a best network")

@@ -1,0 +1,92 @@
+"""How evolvers are found and built: by entry-point name or ``module:attr`` path.
+
+An evolver is made by calling a *factory* (usually the class) with its configuration as
+keyword arguments. Factories are found by name in the entry-point group
+``neuroyard.evolvers`` or by a ``module:attr`` path.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import importlib
+import json
+import tomllib
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field
+from importlib.metadata import entry_points
+from pathlib import Path
+from typing import Any
+
+from neuroyard.harness.core.errors import EvolverError
+from neuroyard.harness.core.evolver import Evolver
+
+ENTRY_POINT_GROUP = "neuroyard.evolvers"
+
+EvolverFactory = Callable[..., Evolver]
+
+
+@dataclass(frozen=True)
+class EvolverSpec:
+    """A named evolver and its configuration: everything needed to build it in any process.
+
+    ``name`` is an entry-point name or a ``module:attr`` path; ``config`` is passed to the
+    factory as keyword arguments. ``config_hash`` identifies the configuration in results.
+    """
+
+    name: str
+    config: Mapping[str, Any] = field(default_factory=dict)
+
+    @property
+    def config_hash(self) -> str:
+        text = json.dumps(self.config, sort_keys=True, default=str)
+        return hashlib.sha256(text.encode()).hexdigest()[:12]
+
+    def build(self) -> Evolver:
+        """Instantiate the evolver; configuration errors become :class:`EvolverError`."""
+        factory = load_factory(self.name)
+        try:
+            return factory(**dict(self.config))
+        except (TypeError, ValueError) as exc:
+            raise EvolverError(f"evolver {self.name!r}: bad configuration: {exc}") from None
+
+
+def available() -> dict[str, str]:
+    """Entry-point names in ``neuroyard.evolvers`` mapped to their ``module:attr`` targets."""
+    return {ep.name: ep.value for ep in entry_points(group=ENTRY_POINT_GROUP)}
+
+
+def load_factory(name: str) -> EvolverFactory:
+    """Resolve an entry-point name or a ``module:attr`` path to an evolver factory."""
+    target = available().get(name)
+    if target is None and ":" not in name:
+        known = ", ".join(sorted(available())) or "none installed"
+        raise EvolverError(
+            f"unknown evolver {name!r} (installed: {known}; or give a module:attr path)"
+        )
+    module_name, _, attr = (target or name).partition(":")
+    try:
+        obj: Any = importlib.import_module(module_name)
+    except ImportError as exc:
+        raise EvolverError(
+            f"evolver {name!r}: cannot import module {module_name!r}: {exc}"
+        ) from None
+    for part in attr.split("."):
+        if not hasattr(obj, part):
+            raise EvolverError(
+                f"evolver {name!r}: module {module_name!r} has no attribute {attr!r}"
+            )
+        obj = getattr(obj, part)
+    if not callable(obj):
+        raise EvolverError(f"evolver {name!r}: {attr!r} is not callable")
+    return obj
+
+
+def read_config(path: str | Path) -> dict[str, Any]:
+    """Read an evolver configuration TOML file (a flat or nested table of settings)."""
+    try:
+        with open(path, "rb") as fh:
+            return tomllib.load(fh)
+    except OSError as exc:
+        raise EvolverError(f"config file {path}: cannot read it ({exc.strerror})") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise EvolverError(f"config file {path}: not valid TOML ({exc})") from None

@@ -1,0 +1,122 @@
+"""The records of the harness: what identifies a run (:class:`RunSpec`), what a run
+produced (:class:`RunRecord`) and one generation of its log (:class:`GenerationLog`).
+
+Statistics, the store and reports read these; none of them needs the runner.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from collections.abc import Mapping
+from dataclasses import asdict, dataclass, field
+from typing import Any
+
+from neuroyard.harness.core.evolver_registry import EvolverSpec
+
+SOLVED, UNSOLVED, FAILED = "solved", "unsolved", "failed"
+
+
+@dataclass(frozen=True)
+class RunSpec:
+    """Everything that identifies a run; the same spec always gives the same result."""
+
+    evolver: EvolverSpec
+    task: str
+    run_index: int
+    campaign_seed: int
+    budget: int | None = None  # None: the task's default budget
+    task_settings: Mapping[str, Any] = field(default_factory=dict)
+
+    @property
+    def key(self) -> str:
+        """Identity in the results store: a finished run with this key is not run again."""
+        ident = {
+            "evolver": self.evolver.name,
+            "config": self.evolver.config_hash,
+            "task": self.task,
+            "settings": dict(sorted(self.task_settings.items())),
+            "seed": self.campaign_seed,
+            "run": self.run_index,
+            "budget": self.budget,
+        }
+        return hashlib.sha256(json.dumps(ident, sort_keys=True).encode()).hexdigest()[:24]
+
+
+@dataclass
+class GenerationLog:
+    """One generation: fitness of its best and mean candidate, evaluations so far, best size.
+
+    ``stats`` are the evolver's own figures (its ``stats()``, read after ``tell()`` of this
+    generation, so a row is one generation's picture); ``non_finite_fitness`` counts the
+    evaluations whose fitness was not finite and was recorded as the task's worst (they
+    count in the mean as that worst value); ``champion_test`` holds the
+    generation's success test: ``rank``, the tested network's place in the generation's
+    fitness order (0 = the fittest; see the module docstring), and the task's details (for
+    the pole tasks the steps it balanced and, when it reached the horizon, its
+    generalization score); empty when no network was tested. So a run that never solved
+    shows how close its champions came.
+    """
+
+    generation: int
+    evaluations: int
+    best_fitness: float
+    mean_fitness: float
+    best_hidden: int
+    best_connections: int
+    stats: dict[str, float] = field(default_factory=dict)
+    champion_test: dict[str, Any] = field(default_factory=dict)
+    non_finite_fitness: int = 0
+
+
+@dataclass
+class RunRecord:
+    """The outcome of a run. ``evaluations`` excludes success tests (``success_evaluations``).
+
+    ``best_network`` is the network that passed the success test, or the fittest one
+    evaluated when the run did not solve; ``hidden_nodes``/``connections`` are its size,
+    ``success_details`` the details of its success test (with its ``rank``).
+    ``evolver_settings`` is the evolver's effective configuration (defaults included) when
+    it offers ``settings()``. ``timing`` holds wall, evolver and harness seconds.
+    """
+
+    evolver: str
+    config: dict[str, Any]
+    config_hash: str
+    task: str
+    task_settings: dict[str, Any]
+    run_index: int
+    campaign_seed: int
+    seed: int
+    task_seed: int
+    budget: int
+    status: str = UNSOLVED
+    failure: str | None = None
+    generations: int = 0
+    evaluations: int = 0
+    success_evaluations: int = 0
+    best_fitness: float | None = None
+    best_network: dict[str, Any] | None = None
+    hidden_nodes: int | None = None
+    connections: int | None = None
+    success_details: dict[str, Any] = field(default_factory=dict)
+    evolver_settings: dict[str, Any] = field(default_factory=dict)
+    log: list[GenerationLog] = field(default_factory=list)
+    timing: dict[str, float] = field(default_factory=dict)
+    versions: dict[str, str | None] = field(default_factory=dict)
+    host: str = ""
+
+    @property
+    def solved(self) -> bool:
+        return self.status == SOLVED
+
+    def to_dict(self) -> dict[str, Any]:
+        """All fields as JSON values, plus ``solved`` (derived from ``status``)."""
+        return {**asdict(self), "solved": self.solved}
+
+    @classmethod
+    def from_dict(cls, doc: Mapping[str, Any]) -> RunRecord:
+        data = dict(doc)
+        data.pop("solved", None)
+        data["log"] = [GenerationLog(**g) for g in data.get("log", [])]
+        return cls(**data)
