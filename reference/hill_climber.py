@@ -15,7 +15,6 @@ or run it without packaging as ``neuroyard run --evolver my_module:HillClimber .
 
 from __future__ import annotations
 
-import math
 from collections.abc import Sequence
 from typing import Any
 
@@ -23,26 +22,35 @@ import numpy as np
 
 from neuroyard.harness.core.evolver import Evaluation, Problem
 from neuroyard.harness.core.network import Network
-from neuroyard.harness.core.options import Option, resolve_options
+from neuroyard.harness.core.options import Option, OptionTable
 
 from .fixed_topology import FixedTopology
-
-OPTIONS = {
-    "hidden": Option(2, ">= 0", lambda v: v >= 0),
-    "offspring": Option(20, ">= 1", lambda v: v >= 1),
-    "sigma": Option(1.0, "a finite number > 0", lambda v: 0 < v < math.inf),
-    "init_range": Option(2.0, "a finite number > 0", lambda v: 0 < v < math.inf),
-}
 
 
 class HillClimber:
     """Keep one parent; each generation try ``offspring`` Gaussian mutants (step ``sigma``);
-    a mutant at least as fit as the parent replaces it. Options: ``hidden`` (2),
-    ``offspring`` (20), ``sigma`` (1.0), ``init_range`` (2.0); a bad one raises
-    ``ValueError`` naming it."""
+    a mutant at least as fit as the parent replaces it. Options: see :attr:`options`; a bad
+    one raises a ``ValueError`` naming it."""
+
+    options = OptionTable(
+        "evolver hill-climber",
+        (
+            Option("hidden", 2, "hidden nodes of the fixed topology", source="ours", low=0),
+            Option("offspring", 20, "mutants tried per generation", source="ours", low=1),
+            Option(
+                "sigma", 1.0, "standard deviation of the Gaussian mutation of each weight",
+                source="ours", above=0.0,
+            ),
+            Option(
+                "init_range", 2.0, "the first parent's weights are uniform in [-range, +range]",
+                source="ours", above=0.0,
+            ),
+        ),
+    )  # fmt: skip
 
     def __init__(self, **options: Any) -> None:
-        values = resolve_options(OPTIONS, options)
+        values = self.options.resolve(options)
+        self.values = values
         self.hidden: int = values["hidden"]
         self.offspring: int = values["offspring"]
         self.sigma: float = values["sigma"]
@@ -59,12 +67,7 @@ class HillClimber:
 
     def settings(self) -> dict[str, object]:
         """The effective configuration (recorded with every run)."""
-        return {
-            "hidden": self.hidden,
-            "offspring": self.offspring,
-            "sigma": self.sigma,
-            "init_range": self.init_range,
-        }
+        return dict(self.values)
 
     def ask(self) -> list[Network]:
         if self.generation == 0:  # first evaluate the parent itself, with mutants beside it

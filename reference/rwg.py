@@ -9,7 +9,6 @@ report RWG figures on pole balancing, see reference/figures.)
 
 from __future__ import annotations
 
-import math
 from collections.abc import Sequence
 from typing import Any
 
@@ -18,27 +17,46 @@ import numpy as np
 from neuroyard.harness.core.activations import NAMES
 from neuroyard.harness.core.evolver import Evaluation, Problem
 from neuroyard.harness.core.network import Network
-from neuroyard.harness.core.options import Option, resolve_options
+from neuroyard.harness.core.options import Option, OptionTable
 
 from .fixed_topology import FixedTopology
 
-OPTIONS = {
-    "hidden": Option(2, ">= 0", lambda v: v >= 0),
-    "weight_range": Option(10.0, "a finite number > 0", lambda v: 0 < v < math.inf),
-    "batch_size": Option(100, ">= 1", lambda v: v >= 1),
-    "recurrent": Option(None, kind=bool, nullable=True),
-    "activation": Option("neat_sigmoid", f"one of {', '.join(NAMES)}", lambda v: v in NAMES),
-}
-
 
 class RandomWeightGuessing:
-    """Options: ``hidden`` nodes (default 2), ``weight_range`` (default 10.0, common
-    practice), ``batch_size`` candidates per generation (default 100), ``recurrent``
-    (default: True when the task needs memory), ``activation`` (default ``neat_sigmoid``).
-    A bad option raises ``ValueError`` naming it."""
+    """Options: see :attr:`options`; a bad one raises a ``ValueError`` naming it."""
+
+    options = OptionTable(
+        "evolver rwg",
+        (
+            Option("hidden", 2, "hidden nodes of the fixed topology", source="ours", low=0),
+            Option(
+                "weight_range",
+                10.0,
+                "weights are uniform in [-weight_range, +weight_range]",
+                source="common practice",
+                above=0.0,
+            ),
+            Option("batch_size", 100, "candidates per generation", source="ours", low=1),
+            Option(
+                "recurrent",
+                None,
+                "recurrent topology; none: recurrent exactly when the task needs memory",
+                source="ours",
+                kind=bool,
+            ),
+            Option(
+                "activation",
+                "neat_sigmoid",
+                "activation of hidden and output nodes",
+                source="ours: the sigmoid of the NEAT paper",
+                choices=tuple(NAMES),
+            ),
+        ),
+    )
 
     def __init__(self, **options: Any) -> None:
-        values = resolve_options(OPTIONS, options)
+        values = self.options.resolve(options)
+        self.values = values
         self.hidden: int = values["hidden"]
         self.weight_range: float = values["weight_range"]
         self.batch_size: int = values["batch_size"]
@@ -53,14 +71,9 @@ class RandomWeightGuessing:
         self.rng = np.random.default_rng(seed)
 
     def settings(self) -> dict[str, object]:
-        """The effective configuration (recorded with every run)."""
-        return {
-            "hidden": self.hidden,
-            "weight_range": self.weight_range,
-            "batch_size": self.batch_size,
-            "recurrent": self.topology.recurrent,
-            "activation": self.activation,
-        }
+        """The effective configuration (recorded with every run); ``recurrent`` as decided
+        for the task."""
+        return {**self.values, "recurrent": self.topology.recurrent}
 
     def ask(self) -> list[Network]:
         w = self.rng.uniform(

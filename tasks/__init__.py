@@ -4,7 +4,18 @@ from . import (
     logic,  # noqa: F401  (registers xor-v2, parity-v2)
     pole,  # noqa: F401
 )
-from .base import SuccessCheck, Task, TaskSpec
-from .registry import make, register, retired, specs, task_ids
+from .base import Metric, SuccessCheck, Task, TaskSpec
+from .registry import declared_metrics, make, register, retired, specs, task_ids
 
-__all__ = ["SuccessCheck", "Task", "TaskSpec", "make", "register", "retired", "specs", "task_ids"]
+__all__ = [
+    "Metric",
+    "SuccessCheck",
+    "Task",
+    "TaskSpec",
+    "declared_metrics",
+    "make",
+    "register",
+    "retired",
+    "specs",
+    "task_ids",
+]

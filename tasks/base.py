@@ -1,7 +1,8 @@
 """The task contract.
 
 A task has a versioned id (``name-vN``: any change to dynamics, scaling or criteria bumps
-N), settings with defaults (every run records the settings it used), and a spec record.
+N), settings declared as :class:`~neuroyard.harness.core.options.Option` (default, range,
+unit, source; every run records all of them), and a spec record.
 The harness calls:
 
 * ``evaluate(net) -> Evaluation``: the fitness of one compiled network; one call is one
@@ -23,12 +24,29 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, ClassVar
 
-from neuroyard.harness.core.batch import CompiledBatch
+from neuroyard.harness.core.batch import CompiledBatch, compile_batch
 from neuroyard.harness.core.compiled import CompiledNetwork
 from neuroyard.harness.core.errors import TaskError
 from neuroyard.harness.core.evolver import Evaluation, Problem
-from neuroyard.harness.core.network import Network
-from neuroyard.harness.core.options import matches_default
+from neuroyard.harness.core.network import Network, fully_connected
+from neuroyard.harness.core.options import Option, OptionTable
+
+
+@dataclass(frozen=True)
+class Metric:
+    """An extra figure a task's success test yields (beside solved or not): its ``name``,
+    which is also its key in :attr:`SuccessCheck.details`, what it measures, its ``unit``
+    and whether a ``higher`` or ``lower`` value is better. Summaries and reports show the
+    mean over solved runs of every metric a task declares, with no harness change."""
+
+    name: str
+    description: str
+    unit: str = ""
+    better: str = "higher"
+
+    def __post_init__(self) -> None:
+        if self.better not in ("higher", "lower"):
+            raise ValueError(f"metric {self.name}: better must be 'higher' or 'lower'")
 
 
 @dataclass(frozen=True)
@@ -44,7 +62,8 @@ class TaskSpec:
     For evolver authors: ``observations`` names the inputs in input-node order with their
     meaning and scaling, ``actions`` the outputs in output-node order with how each is
     turned into an action, ``output_rule`` how an output outside its meaningful range (or
-    non-finite) is treated.
+    non-finite) is treated. ``metrics``: the extra figures the success test reports
+    (:class:`Metric`).
     """
 
     id: str
@@ -62,6 +81,7 @@ class TaskSpec:
     observations: tuple[str, ...] = ()
     actions: tuple[str, ...] = ()
     output_rule: str = ""
+    metrics: tuple[Metric, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -74,25 +94,24 @@ class SuccessCheck:
 
 
 class Task(ABC):
-    """Base class. Subclasses set ``id`` and ``defaults`` and implement the abstract methods."""
+    """Base class. Subclasses set ``id`` and ``options`` and implement the abstract methods."""
 
     id: ClassVar[str]
-    defaults: ClassVar[Mapping[str, Any]] = {}
+    options: ClassVar[tuple[Option, ...]] = ()
 
     def __init__(self, seed: int = 0, **settings: Any) -> None:
-        unknown = sorted(set(settings) - set(self.defaults))
-        if unknown:
-            known = ", ".join(sorted(self.defaults)) or "none"
-            raise TaskError(f"task {self.id}: unknown setting {unknown[0]!r} (known: {known})")
-        merged = dict(self.defaults)
-        for key, value in settings.items():
-            merged[key] = _coerce(self.id, key, self.defaults[key], value)
         self.seed = seed
-        self.settings: dict[str, Any] = merged
+        self.settings: dict[str, Any] = self.option_table().resolve(settings)
         self.check_settings()
 
+    @classmethod
+    def option_table(cls) -> OptionTable:
+        """The task's settings as an option table (errors are :class:`TaskError`)."""
+        return OptionTable(f"task {cls.id}", cls.options, noun="setting", error=TaskError)
+
     def check_settings(self) -> None:  # noqa: B027 - optional hook
-        """Raise :class:`TaskError` naming the setting when a value is out of range."""
+        """Raise :class:`TaskError` naming the settings when values that are each within
+        their range do not fit together (ranges of single settings are in ``options``)."""
 
     @property
     @abstractmethod
@@ -110,6 +129,19 @@ class Task(ABC):
         Override with a kernel that loops over :func:`~neuroyard.harness.batch.member`
         when one evaluation is so cheap that a Python call per network would dominate."""
         return [self.evaluate(batch.network(i)) for i in range(batch.size)]
+
+    def warm_up(self) -> None:
+        """Load (or compile) the task's numba kernels: the harness calls this on a run's
+        task before the run starts, at most once per process and task setting. The default
+        compiles, evaluates and success-tests one minimal network, which leaves a task
+        without state as it was; a task whose evaluations change its state (an episode
+        counter, a random generator) must override it so that the run still starts from
+        the state it was built with."""
+        spec = self.spec
+        network = fully_connected(spec.inputs, spec.outputs)
+        batch = compile_batch([network], spec.inputs, spec.outputs, "warm-up network".format)
+        (result,) = self.evaluate_batch(batch)
+        self.success_test(batch.network(0), result)
 
     def replay(self, network: Network, steps: int, out: Path) -> str:
         """Optional: run ``network`` for at most ``steps`` steps, draw what it did into the
@@ -131,12 +163,3 @@ class Task(ABC):
             needs_memory=spec.needs_memory,
             settings=dict(self.settings),
         )
-
-
-def _coerce(task_id: str, key: str, default: Any, value: Any) -> Any:
-    """Check a setting against the type of its default (ints are accepted for floats)."""
-    if not matches_default(default, value):
-        raise TaskError(
-            f"task {task_id}: setting {key!r} must be {type(default).__name__}, got {value!r}"
-        )
-    return float(value) if isinstance(default, float) else value

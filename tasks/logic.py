@@ -27,8 +27,8 @@ import numpy as np
 
 from neuroyard.harness.core.batch import CompiledBatch, member
 from neuroyard.harness.core.compiled import CompiledNetwork, new_state, reset, step
-from neuroyard.harness.core.errors import TaskError
 from neuroyard.harness.core.evolver import Evaluation
+from neuroyard.harness.core.options import Option
 
 from .base import SuccessCheck, Task, TaskSpec
 from .registry import register, retire
@@ -87,18 +87,23 @@ OUTPUT_RULE = (
 )
 
 
+RECURRENT_STEPS = Option(
+    "recurrent_steps",
+    5,
+    "network steps per pattern for a recurrent network (a feedforward one takes one)",
+    source="ours (common practice: enough steps for a signal to cross a few hidden nodes)",
+    low=1,
+)
+
+
 class BooleanTask(Task):
     """A truth table learned by a network with one output; see module docstring."""
 
-    defaults = {"recurrent_steps": 5}
+    options = (RECURRENT_STEPS,)
 
     def __init__(self, seed: int = 0, **settings) -> None:
         super().__init__(seed, **settings)
         self.patterns, self.targets = self.truth_table()
-
-    def check_settings(self) -> None:
-        if self.settings["recurrent_steps"] < 1:
-            raise TaskError(f"task {self.id}: setting 'recurrent_steps' must be at least 1")
 
     def truth_table(self) -> tuple[np.ndarray, np.ndarray]:
         bits = self.bits
@@ -171,14 +176,18 @@ class Xor(BooleanTask):
 @register
 class Parity(BooleanTask):
     id = "parity-v2"
-    defaults = {"bits": 3, "recurrent_steps": 5}
-
-    def check_settings(self) -> None:
-        super().check_settings()
-        if not 2 <= self.settings["bits"] <= 12:
-            raise TaskError(
-                f"task {self.id}: setting 'bits' must be 2..12, got {self.settings['bits']}"
-            )
+    options = (
+        Option(
+            "bits",
+            3,
+            "inputs of the parity function (2^bits patterns)",
+            source="ours: 3 bits is the smallest parity harder than XOR; at most 12 "
+            "(4,096 patterns per evaluation)",
+            low=2,
+            high=12,
+        ),
+        RECURRENT_STEPS,
+    )
 
     @property
     def bits(self) -> int:

@@ -8,12 +8,13 @@ packages add tasks through the entry-point group ``neuroyard.tasks`` (the target
 from __future__ import annotations
 
 import re
+from collections.abc import Mapping
 from importlib.metadata import entry_points
 from typing import Any
 
 from neuroyard.harness.core.errors import TaskError
 
-from .base import Task, TaskSpec
+from .base import Metric, Task, TaskSpec
 
 ENTRY_POINT_GROUP = "neuroyard.tasks"
 _ID = re.compile(r"^[a-z0-9][a-z0-9-]*-v\d+$")
@@ -71,6 +72,16 @@ def task_class(task_id: str) -> type[Task]:
 def make(task_id: str, seed: int = 0, **settings: Any) -> Task:
     """Build task ``task_id`` with its task seed and settings (defaults for the rest)."""
     return task_class(task_id)(seed=seed, **settings)
+
+
+def declared_metrics(task_id: str, settings: Mapping[str, Any]) -> tuple[Metric, ...]:
+    """The metrics task ``task_id`` declares under ``settings`` (recorded runs: their
+    settings); none when the task is not installed, retired, or the settings no longer
+    fit it, so old stores still report their standard figures."""
+    try:
+        return make(task_id, **settings).spec.metrics
+    except TaskError:
+        return ()
 
 
 def specs() -> list[TaskSpec]:

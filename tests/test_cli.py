@@ -138,26 +138,26 @@ def test_evaluate_a_network_file(tmp_path, capsys):
         (["run", "--evolver", "nope", "--runs", "1"], "unknown evolver 'nope'"),
         (["run", "--runs", "zero"], "argument --runs: expected a whole number, got 'zero'"),
         (["run", "--runs", "0"], "argument --runs: must be at least 1"),
-        (["run", "--setting", "bits=x", "--task", "parity-v2"], "setting 'bits' must be int"),
+        (["run", "--setting", "bits=x", "--task", "parity-v2"], "task parity-v2: setting 'bits' must be a whole number, got 'x'"),
         (
             ["run", "--param", "batch_size=0", "--evolver", "rwg"],
-            "bad configuration: option 'batch_size' must be >= 1, got 0",
+            "evolver rwg: option 'batch_size' must be >= 1, got 0",
         ),
         (
             ["run", "--param", "hidden=abc", "--evolver", "rwg"],
-            "bad configuration: option 'hidden' must be int, got 'abc'",
+            "evolver rwg: option 'hidden' must be a whole number, got 'abc'",
         ),
         (
             ["run", "--param", "sigma=-1", "--evolver", "hill-climber"],
-            "bad configuration: option 'sigma' must be a finite number > 0, got -1.0",
+            "evolver hill-climber: option 'sigma' must be > 0, got -1.0",
         ),
         (
             ["run", "--param", "offspring=2.5", "--evolver", "hill-climber"],
-            "bad configuration: option 'offspring' must be int, got 2.5",
+            "evolver hill-climber: option 'offspring' must be a whole number, got 2.5",
         ),
         (
             ["run", "--param", "population_size=x", "--evolver", "neat"],
-            "NEAT setting 'population_size' must be int, got 'x'",
+            "evolver neat: option 'population_size' must be a whole number, got 'x'",
         ),
         (["run", "--task", "xor-v1"], "task 'xor-v1' is retired, use 'xor-v2'"),
         (
@@ -173,7 +173,7 @@ def test_evaluate_a_network_file(tmp_path, capsys):
             ["report", "--store", "/nonexistent/x.db"],
             "results store /nonexistent/x.db: no such file",
         ),
-        (["report", "--format", "pdf"], "argument --format: invalid choice: 'pdf'"),
+        (["report", "--format", "pdf"], "unknown report format 'pdf' (known: json, markdown, text)"),
         (
             ["evaluate", "missing.json", "--task", "xor-v2"],
             "network file missing.json: cannot read it",

@@ -22,8 +22,7 @@ from neuroyard.harness.cli.main import main
 from neuroyard.harness.core.evolver_registry import EvolverSpec
 from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
 from neuroyard.harness.execution.runner import run_one
-from neuroyard.harness.execution.supervisor import Limits
-from neuroyard.harness.records.runs import RunSpec
+from neuroyard.harness.execution.supervisor import Limits, Supervisor
 from neuroyard.harness.records.store import ResultStore
 
 HERE = Path(__file__).parent
@@ -101,7 +100,7 @@ def clean(tmp_path_factory) -> list[dict]:
     """Records of the well-behaved evolvers alone."""
     path = tmp_path_factory.mktemp("clean") / "clean.db"
     with ResultStore(path) as store:
-        execute(plan(HEALTHY), store, progress=False, limits=LIMITS)
+        execute(plan(HEALTHY), store, Supervisor(1, LIMITS), progress=False)
         return [comparable(r.to_dict()) for r in store.records()]
 
 
@@ -111,9 +110,7 @@ def campaign(request, tmp_path_factory):
     path = tmp_path_factory.mktemp(f"faults{request.param}") / "faults.db"
     evolvers = [faulty(kind) for kind in FAULTS] + HEALTHY
     with ResultStore(path) as store:
-        result = execute(
-            plan(evolvers), store, workers=request.param, progress=False, limits=LIMITS
-        )
+        result = execute(plan(evolvers), store, Supervisor(request.param, LIMITS), progress=False)
     return path, result
 
 
@@ -184,7 +181,7 @@ def test_the_store_is_sound_and_the_campaign_resumes(campaign):
     assert sqlite3.connect(path).execute("PRAGMA integrity_check").fetchone() == ("ok",)
     evolvers = [faulty(kind) for kind in FAULTS] + HEALTHY
     with ResultStore(path) as store:
-        again = execute(plan(evolvers), store, workers=2, progress=False, limits=LIMITS)
+        again = execute(plan(evolvers), store, Supervisor(2, LIMITS), progress=False)
         assert (again.done, again.skipped) == (0, RUNS * len(evolvers))
         assert store.db.execute("SELECT count(*) FROM claims").fetchone() == (0,)
 
@@ -210,12 +207,12 @@ def test_a_worker_that_dies_in_harness_code_has_its_run_started_again(tmp_path):
     evolver = EvolverSpec("faulty_evolvers:DiesInHarness", {"marker": str(marker)})
     run = CampaignPlan([evolver], [TaskChoice("pole1-markov-v1")], 1, 3, 1000)
     with ResultStore(tmp_path / "retry.db") as store:
-        result = execute(run, store, workers=2, progress=False, limits=LIMITS)
+        result = execute(run, store, Supervisor(2, LIMITS), progress=False)
         (record,) = list(store.records())
     assert result.done == 1 and marker.exists()
     assert record.status == "solved"
     (spec,) = run.expand()
-    undisturbed = run_one(RunSpec(evolver, spec.task, 0, 3, 1000))  # the marker exists now
+    undisturbed = run_one(spec)  # the marker exists now
     assert comparable(record.to_dict()) == comparable(undisturbed.to_dict())
 
 
@@ -223,7 +220,7 @@ def test_a_run_whose_worker_dies_twice_outside_evolver_calls_is_failed(tmp_path)
     evolver = EvolverSpec("faulty_evolvers:DiesInHarness", {"once": False})
     run = CampaignPlan([evolver], [TaskChoice("pole1-markov-v1")], 1, 3, 1000)
     with ResultStore(tmp_path / "twice.db") as store:
-        execute(run, store, workers=1, progress=False, limits=LIMITS)
+        execute(run, store, Supervisor(1, LIMITS), progress=False)
         (record,) = list(store.records())
     assert record.status == "failed"
     assert record.failure == (

@@ -228,13 +228,13 @@ def test_parity_3_ignoring_one_input_is_not_solved() -> None:
     [
         ("xor-v2", {"bits": 3}, "unknown setting 'bits'"),
         ("parity-v2", {"bitz": 3}, "unknown setting 'bitz'"),
-        ("parity-v2", {"bits": "3"}, "setting 'bits' must be int"),
-        ("parity-v2", {"bits": 3.0}, "setting 'bits' must be int"),
-        ("parity-v2", {"bits": True}, "setting 'bits' must be int"),
-        ("parity-v2", {"bits": 1}, "setting 'bits' must be 2..12"),
-        ("parity-v2", {"bits": 13}, "setting 'bits' must be 2..12"),
-        ("xor-v2", {"recurrent_steps": 0}, "setting 'recurrent_steps' must be at least 1"),
-        ("xor-v2", {"recurrent_steps": 2.5}, "setting 'recurrent_steps' must be int"),
+        ("parity-v2", {"bits": "three"}, "setting 'bits' must be a whole number, got 'three'"),
+        ("parity-v2", {"bits": 3.0}, "setting 'bits' must be a whole number, got 3.0"),
+        ("parity-v2", {"bits": True}, "setting 'bits' must be a whole number, got True"),
+        ("parity-v2", {"bits": 1}, "setting 'bits' must be within 2..12"),
+        ("parity-v2", {"bits": 13}, "setting 'bits' must be within 2..12"),
+        ("xor-v2", {"recurrent_steps": 0}, "setting 'recurrent_steps' must be >= 1, got 0"),
+        ("xor-v2", {"recurrent_steps": 2.5}, "setting 'recurrent_steps' must be a whole number"),
     ],
 )
 def test_bad_settings_name_the_key(task_id: str, settings: dict, message: str) -> None:

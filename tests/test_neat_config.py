@@ -12,13 +12,13 @@ import pytest
 
 from neuroyard.harness.core.errors import EvolverError
 from neuroyard.harness.core.evolver_registry import EvolverSpec, load_factory
-from neuroyard.reference.neat import NeatConfig, NeatEvolver, make_config, parameters
+from neuroyard.reference.neat import NeatConfig, NeatEvolver, make_config, option_table
 
 
 def test_every_config_field_is_declared_with_a_source():
-    declared = parameters()
-    assert set(declared) == {f.name for f in dataclasses.fields(NeatConfig)}
-    for p in declared.values():
+    declared = option_table()
+    assert set(declared.names) == {f.name for f in dataclasses.fields(NeatConfig)}
+    for p in declared:
         # a default either cites the paper with a provenance tag, or says it is not from it
         assert any(
             tag in p.source
@@ -31,7 +31,7 @@ def test_every_config_field_is_declared_with_a_source():
                 "neuroyard",
             )
         ), p.name
-        if p.low is not None:
+        if p.low is not None and p.high is not None:
             assert p.low <= p.default <= p.high, p.name
 
 
@@ -46,7 +46,7 @@ def test_defaults_are_the_papers_settings():
     assert (c.initial_topology, c.initial_hidden, c.recurrent) == ("minimal", 0, False)
     assert c.growth and c.speciation and c.crossover
     # not in the paper: must be tagged as such (LITERATURE.md 1.1, survival fraction row)
-    assert "common practice" in parameters()["survival_fraction"].source
+    assert "common practice" in option_table()["survival_fraction"].source
 
 
 def test_settings_override_defaults_and_text_values_are_parsed():
@@ -73,6 +73,29 @@ def test_settings_override_defaults_and_text_values_are_parsed():
 def test_bad_settings_raise_value_error_naming_the_key(settings, named):
     with pytest.raises(ValueError, match=named):
         NeatEvolver(**settings)
+
+
+@pytest.mark.parametrize(
+    ("settings", "words"),
+    [  # the option, the value and what is allowed, in one line
+        ({"add_node_prob": 1.5}, "option 'add_node_prob' must be within 0..1, got 1.5"),
+        ({"initial_topology": "dense"}, "must be one of minimal, random, got 'dense'"),
+        ({"population_size": 150.5}, "option 'population_size' must be a whole number"),
+    ],
+)
+def test_errors_name_the_option_the_value_and_the_range(settings, words):
+    with pytest.raises(ValueError) as info:
+        NeatEvolver(**settings)
+    assert words in str(info.value) and str(info.value).startswith("evolver neat: ")
+
+
+def test_the_perturbation_half_width_is_still_read_under_its_former_name():
+    current = make_config({"weight_perturb_half_width": 1.0})
+    assert make_config({"weight_perturb_power": 1.0}) == current  # stored configurations
+    with pytest.raises(ValueError, match="given twice"):
+        make_config({"weight_perturb_power": 1.0, "weight_perturb_half_width": 2.0})
+    spec = EvolverSpec("neat", {"weight_perturb_power": 1.0})
+    assert spec.config_hash == EvolverSpec("neat", {"weight_perturb_half_width": 1.0}).config_hash
 
 
 def test_registered_as_neat_and_config_errors_become_evolver_errors():

@@ -10,16 +10,14 @@ import pytest
 
 from neuroyard.harness.core.evolver_registry import EvolverSpec
 from neuroyard.harness.core.network import from_dict
+from neuroyard.harness.execution.campaign import plan_run
 from neuroyard.harness.execution.runner import run_one
-from neuroyard.harness.records.runs import RunSpec
 
 BUDGET = 30_000  # issue 3 acceptance: 10 fixed-seed runs solved within 30,000 evaluations
 
 
 def xor_run(run_index: int, budget: int = BUDGET, **config):
-    spec = RunSpec(
-        EvolverSpec("neat", config), "xor-v2", run_index, campaign_seed=2002, budget=budget
-    )
+    spec = plan_run(EvolverSpec("neat", config), "xor-v2", run_index, 2002, budget)
     return run_one(spec)
 
 

@@ -7,23 +7,15 @@ tests/slow/test_study_pole.py; there NEAT needed 435 evaluations on average.
 from __future__ import annotations
 
 from neuroyard.harness.core.evolver_registry import EvolverSpec
+from neuroyard.harness.execution.campaign import plan_run
 from neuroyard.harness.execution.runner import run_one
-from neuroyard.harness.records.runs import RunSpec
 
 SHORT_BUDGET = 10_000  # evaluations per run
 
 
 def test_neat_solves_single_pole_with_velocities_in_three_short_runs() -> None:
     for run in range(3):
-        record = run_one(
-            RunSpec(
-                evolver=EvolverSpec("neat", {}),
-                task="pole1-markov-v1",
-                run_index=run,
-                campaign_seed=7,
-                budget=SHORT_BUDGET,
-            )
-        )
+        record = run_one(plan_run(EvolverSpec("neat", {}), "pole1-markov-v1", run, 7, SHORT_BUDGET))
         assert record.solved, (run, record.status, record.failure, record.best_fitness)
         assert record.success_details["balanced_steps"] == 100_000
         assert record.task_settings["substeps"] == 2  # the settings are recorded

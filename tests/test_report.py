@@ -10,7 +10,7 @@ from scipy.stats import binomtest, ttest_ind
 from scipy.stats import t as student_t
 
 from neuroyard.harness.records.runs import RunRecord
-from neuroyard.harness.reports import report
+from neuroyard.harness.reports import renderers, report
 from neuroyard.harness.reports.stats import (
     expected_running_time,
     fisher_p_value,
@@ -78,7 +78,7 @@ def test_published_figures_stand_beside_measured_values():
     means = [c for c in row.comparisons if c.metric == "mean_evaluations"]
     assert means and means[0].comparable
     assert means[0].ratio == pytest.approx(4000 / published)
-    text = report.render(rows, "text")
+    text = renderers.render(rows, "text")
     assert "Published figures beside measured values" in text and "VERIFIED-QUOTE" in text
 
 
@@ -88,7 +88,7 @@ def test_figure_under_another_protocol_is_not_comparable():
     assert means and not means[0].comparable and means[0].ratio is not None
     assert "evolver.population_size=300 (published: 150)" in means[0].mismatches
     # the text report prints no ratio for a figure that is not comparable
-    line = next(x for x in report.render(rows, "text").splitlines() if "mean_evaluations" in x)
+    line = next(x for x in renderers.render(rows, "text").splitlines() if "mean_evaluations" in x)
     assert "no: evolver.population_size=300" in line
 
 
@@ -101,7 +101,7 @@ def test_report_lists_the_options_given_apart_from_the_evolver_defaults():
         evolver_settings={"population_size": 300, "c3": 0.4},
     )
     rows = report.build([record(1, True, 3000), given])
-    lines = report.render(rows, "markdown").splitlines()
+    lines = renderers.render(rows, "markdown").splitlines()
     assert "- evolver neat [c0ffee]: the evolver's defaults: population_size=150" in lines
     assert (
         "- evolver neat [0ddba1]: set for these runs: population_size=300; "
@@ -166,7 +166,7 @@ def test_report_tests_measured_against_published_where_the_paper_allows():
     # no sd published for generations or connections: no test
     assert by_metric["mean_generations"].p_value is None
     assert by_metric["mean_connections"].p_value is None
-    assert "(Welch t)" in report.render(rows, "text")
+    assert "(Welch t)" in renderers.render(rows, "text")
     # a figure under another protocol is not tested either
     other = report.build(
         [record(0, True, 3000, population=300), record(1, True, 4000, population=300)]

@@ -8,8 +8,9 @@ import pytest
 
 from neuroyard.harness.core.evolver_registry import EvolverSpec
 from neuroyard.harness.execution import seeds
+from neuroyard.harness.execution.campaign import plan_run
 from neuroyard.harness.execution.runner import load_kernels, run_one
-from neuroyard.harness.records.runs import RunSpec
+from neuroyard.tasks import make
 from neuroyard.tasks.base import SuccessCheck
 from neuroyard.tasks.logic import Xor
 
@@ -25,9 +26,9 @@ def _plugins_importable(monkeypatch):
 def counted_xor(monkeypatch):
     """Count every fitness evaluation the XOR task makes, independently of the runner.
 
-    The runner's once-per-process kernel warm-up (on its own task instance, not part of any
-    run) is done before counting starts."""
-    load_kernels("xor-v2", {})
+    The runner's once-per-process kernel warm-up (before the run, not part of it) is done
+    before counting starts."""
+    load_kernels(make("xor-v2"))
     calls = {"evaluate": 0, "success": 0}
     evaluate, success = Xor.evaluate_batch, Xor.success_test
 
@@ -46,7 +47,7 @@ def counted_xor(monkeypatch):
 
 
 def spec(name, budget=None, run_index=0, seed=1, **config):
-    return RunSpec(EvolverSpec(name, config), "xor-v2", run_index, seed, budget)
+    return plan_run(EvolverSpec(name, config), "xor-v2", run_index, seed, budget)
 
 
 def test_budget_is_exact_and_every_evaluation_counted(counted_xor):
@@ -81,7 +82,7 @@ def test_tell_gets_every_batch_and_stats_are_read_after_it():
 def test_the_solving_batch_is_told_and_stop_gets_the_outcome(monkeypatch):
     from plugins_for_tests import Constant
 
-    load_kernels("xor-v2", {})
+    load_kernels(make("xor-v2"))
     monkeypatch.setattr(Xor, "success_test", lambda self, net, ev: SuccessCheck(True, 1))
     Constant.outcomes.clear()
     record = run_one(spec("plugins_for_tests:Constant", budget=100, batch=3))
@@ -102,7 +103,7 @@ def test_the_solution_is_the_network_that_passed_even_below_the_fittest(monkeypa
     # two networks asked again and again; the test fails the first network tested and
     # passes any other. Generation 0 tests the fittest, generation 1 the other one, which
     # passes: it is the recorded solution, with its rank
-    load_kernels("xor-v2", {})
+    load_kernels(make("xor-v2"))
     tested: list[float] = []
 
     def success(self, net, evaluation):
@@ -142,7 +143,7 @@ def test_log_and_versions_are_recorded():
 
 def test_kernel_loading_is_timed_apart_once_per_process_and_leaves_results_unchanged():
     # a task setting no other test uses, so this process has not warmed this task up yet
-    run = RunSpec(EvolverSpec("rwg", {}), "xor-v2", 2, 1, 500, {"recurrent_steps": 7})
+    run = plan_run(EvolverSpec("rwg", {}), "xor-v2", 2, 1, 500, {"recurrent_steps": 7})
     first, again = run_one(run), run_one(run)
     assert first.timing["kernel_load"] > 0.0 and again.timing["kernel_load"] == 0.0
     for record in (first, again):

@@ -13,7 +13,8 @@ import pytest
 from neuroyard.harness.core.errors import StoreError
 from neuroyard.harness.core.evolver_registry import EvolverSpec
 from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.records.store import ResultStore
+from neuroyard.harness.execution.supervisor import Supervisor
+from neuroyard.harness.records.store import SCHEMA_VERSION, ResultStore
 
 
 def plan(runs=4, seed=3):
@@ -38,8 +39,8 @@ def test_round_trip_and_resume_skips_finished_runs(tmp_path):
 
 def test_parallel_workers_give_the_same_records(tmp_path):
     with ResultStore(tmp_path / "a.db") as a, ResultStore(tmp_path / "b.db") as b:
-        execute(plan(), a, workers=1, progress=False)
-        execute(plan(), b, workers=2, progress=False)
+        execute(plan(), a, Supervisor(1), progress=False)
+        execute(plan(), b, Supervisor(2), progress=False)
         strip = lambda r: {k: v for k, v in r.to_dict().items() if k not in ("timing", "host")}  # noqa: E731
         assert [strip(r) for r in a.records()] == [strip(r) for r in b.records()]
 
@@ -138,12 +139,12 @@ def test_an_older_store_is_read_and_upgraded_by_the_first_write(tmp_path, versio
     assert old == [{**r, "log": [{**g, **missing} for g in r["log"]]} for r in before]
     with ResultStore(path) as store:
         assert execute(plan(runs=3), store, progress=False)[:2] == (1, 2)
-        assert store.version == 3
+        assert store.version == SCHEMA_VERSION
         after = [r.to_dict() for r in store.records()]
     assert after[:2] == old  # the upgrade kept the old runs as they were
     assert len(after) == 3 and len(after[2]["log"]) == after[2]["generations"]
     stored = sqlite3.connect(path).execute("SELECT value FROM meta").fetchone()[0]
-    assert stored == "3"
+    assert stored == str(SCHEMA_VERSION)
 
 
 def test_a_failed_upgrade_leaves_the_older_store_as_it_was(tmp_path, monkeypatch):

@@ -14,19 +14,25 @@ import os
 import sys
 import traceback
 from collections.abc import Sequence
-from dataclasses import asdict
 from pathlib import Path
 from typing import Any, NoReturn
 
-from neuroyard.harness.cli import replay
+from neuroyard.harness.cli import listing, replay
 from neuroyard.harness.core import jsonsafe
 from neuroyard.harness.core.batch import compile_network
 from neuroyard.harness.core.errors import NeuroyardError
 from neuroyard.harness.core.evolver import MAX_BATCH
-from neuroyard.harness.core.evolver_registry import EvolverSpec, load_factory, read_config
+from neuroyard.harness.core.evolver_registry import (
+    EvolverSpec,
+    load_factory,
+    option_table,
+    read_config,
+)
 from neuroyard.harness.core.network import validate
+from neuroyard.harness.core.options import distribute
 from neuroyard.harness.execution import crashlog
 from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.harness.execution.executors import make_executor
 from neuroyard.harness.execution.runner import RunFault, bound_fitness
 from neuroyard.harness.execution.supervisor import (
     DEFAULT_MEMORY_LIMIT_MB,
@@ -34,8 +40,9 @@ from neuroyard.harness.execution.supervisor import (
     Limits,
 )
 from neuroyard.harness.records.store import DEFAULT_PATH, ResultStore
-from neuroyard.harness.reports import report as report_mod
-from neuroyard.tasks import make, retired, specs
+from neuroyard.harness.reports import renderers, report
+from neuroyard.tasks import make
+from neuroyard.tasks.registry import task_class
 
 DEFAULT_EVOLVER = "neat"  # the best reference evolver on the quick suite
 QUICK_SUITE = ("xor-v2",)
@@ -84,8 +91,7 @@ def build_parser() -> argparse.ArgumentParser:
     p = _Parser(prog="neuroyard", description="Benchmark neuroevolution algorithms honestly.")
     sub = p.add_subparsers(dest="command", required=True, parser_class=_Parser)
 
-    t = sub.add_parser("tasks", help="list the tasks with interface, criteria and sources")
-    t.add_argument("--format", choices=("text", "json"), default="text")
+    listing.add_parsers(sub)
 
     r = sub.add_parser("run", help="run a campaign into a results store")
     r.add_argument(
@@ -106,16 +112,18 @@ def build_parser() -> argparse.ArgumentParser:
         type=_assignment,
         action="append",
         default=[],
-        metavar="KEY=VALUE",
-        help="evolver setting",
+        metavar="[EVOLVER:]KEY=VALUE",
+        help="evolver option; with EVOLVER: for that evolver only, else for every evolver "
+        "of the campaign that has it",
     )
     r.add_argument(
         "--setting",
         type=_assignment,
         action="append",
         default=[],
-        metavar="KEY=VALUE",
-        help="task setting",
+        metavar="[TASK:]KEY=VALUE",
+        help="task setting; with TASK: for that task only, else for every task of the "
+        "campaign that has it",
     )
     r.add_argument("--workers", type=_positive, default=1, help="parallel worker processes")
     r.add_argument(
@@ -149,7 +157,9 @@ def build_parser() -> argparse.ArgumentParser:
 
     rp = sub.add_parser("report", help="summarise the runs in a store")
     rp.add_argument("--store", type=Path, default=DEFAULT_PATH)
-    rp.add_argument("--format", choices=report_mod.FORMATS, default="text")
+    rp.add_argument(
+        "--format", default="text", help="text, markdown, json or an installed renderer"
+    )
 
     e = sub.add_parser("export", help="write every run record, one JSON object per line")
     e.add_argument("--store", type=Path, default=DEFAULT_PATH)
@@ -164,55 +174,18 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
-NETWORK_CONVENTIONS = (
-    "networks: the k-th input node gets the k-th input, the k-th output node gives the k-th "
-    "output; a bias node (value 1.0) is optional, and every hidden and output node also has "
-    "its own bias term (harness/core/network.py)"
-)
-
-
-def _cmd_tasks(args: argparse.Namespace) -> None:
-    rows = specs()
-    if args.format == "json":
-        print(jsonsafe.dumps([_spec_json(s) for s in rows], indent=2))
-        return
-    print(NETWORK_CONVENTIONS)
-    for s in rows:
-        top = "no upper bound" if s.max_fitness is None else f"{s.max_fitness:g}"
-        print()
-        print(
-            f"{s.id}: {s.inputs} inputs, {s.outputs} outputs, default budget "
-            f"{s.default_budget:,} evaluations"
-        )
-        print(f"  fitness: {s.fitness} (bounds {s.min_fitness:g} to {top})")
-        print(f"  solved:  {s.success}")
-        for k, text in enumerate(s.observations):
-            print(f"  input {k}: {text}")
-        for k, text in enumerate(s.actions):
-            print(f"  output {k}: {text}")
-        print(f"  outputs out of range: {s.output_rule}")
-        print(f"  settings: {json.dumps(dict(s.settings))}")
-        for src in s.sources:
-            print(f"  source:  {src}")
-    for old, (successor, reason) in sorted(retired().items()):
-        print(f"\n{old}: retired, use {successor} ({reason})")
-
-
-def _spec_json(spec: Any) -> dict[str, Any]:
-    doc = asdict(spec)
-    doc["settings"] = dict(spec.settings)
-    return doc
-
-
 def _plan(args: argparse.Namespace) -> CampaignPlan:
     config: dict[str, Any] = read_config(args.config) if args.config else {}
-    config.update(dict(args.param))
-    evolvers = [EvolverSpec(name, config) for name in (args.evolver or [DEFAULT_EVOLVER])]
-    for spec in evolvers:  # fail before any run: unknown evolver or bad configuration
-        load_factory(spec.name)
+    names = args.evolver or [DEFAULT_EVOLVER]
+    tables = {name: option_table(load_factory(name)) for name in names}
+    params = distribute(args.param, tables, "--param")
+    evolvers = [EvolverSpec(name, {**config, **params[name]}) for name in names]
+    for spec in evolvers:  # fail before any run: bad configuration
         spec.build()
-    settings = dict(args.setting)
-    tasks = [TaskChoice(task_id, settings) for task_id in (args.task or QUICK_SUITE)]
+    task_list = args.task or list(QUICK_SUITE)
+    task_tables = {task_id: task_class(task_id).option_table() for task_id in task_list}
+    settings = distribute(args.setting, task_tables, "--setting")
+    tasks = [TaskChoice(task_id, settings[task_id]) for task_id in task_list]
     for task in tasks:
         make(task.id, **task.settings)
     return CampaignPlan(evolvers, tasks, args.runs, args.seed, args.budget)
@@ -222,14 +195,8 @@ def _cmd_run(args: argparse.Namespace) -> None:
     plan = _plan(args)
     limits = Limits(args.time_limit, args.memory_limit, args.max_batch)
     with ResultStore(args.store) as store:
-        outcome = execute(
-            plan,
-            store,
-            workers=args.workers,
-            progress=not args.quiet,
-            limits=limits,
-            in_process=args.in_process,
-        )
+        executor = make_executor("in-process" if args.in_process else "pool", args.workers, limits)
+        outcome = execute(plan, store, executor, progress=not args.quiet)
         if outcome.internal_errors:
             raise InternalError(
                 f"{outcome.internal_errors} run(s) stopped on an internal error and were not "
@@ -246,19 +213,20 @@ def _cmd_run(args: argparse.Namespace) -> None:
             if (r.evolver, r.config_hash) in wanted and r.task in tasks
         ]
     print(f"{outcome.done} runs done, {outcome.skipped} already in {args.store}")
-    print(report_mod.render(report_mod.build(records), "text"))
+    print(renderers.render(report.build(records), "text"))
 
 
 def _cmd_report(args: argparse.Namespace) -> None:
+    renderers.check_format(args.format)  # before the store is opened
     with ResultStore(args.store, write=False) as store:
-        rows = report_mod.build(store.records(with_log=False))
-    print(report_mod.render(rows, args.format))
+        rows = report.build(store.records(with_log=False))
+    print(renderers.render(rows, args.format))
 
 
 def _cmd_export(args: argparse.Namespace) -> None:
     with ResultStore(args.store, write=False) as store:
         for record in store.records():
-            sys.stdout.write(jsonsafe.dumps(record.to_dict(), sort_keys=True) + "\n")
+            sys.stdout.write(jsonsafe.dumps(report.export_record(record), sort_keys=True) + "\n")
 
 
 def _cmd_evaluate(args: argparse.Namespace) -> None:
@@ -292,7 +260,8 @@ def _cmd_evaluate(args: argparse.Namespace) -> None:
 
 
 COMMANDS = {
-    "tasks": _cmd_tasks,
+    "tasks": listing.tasks_command,
+    "evolvers": listing.evolvers_command,
     "run": _cmd_run,
     "report": _cmd_report,
     "export": _cmd_export,

@@ -19,3 +19,9 @@ class TaskError(NeuroyardError):
 
 class StoreError(NeuroyardError):
     """The results store cannot be opened, read or written."""
+
+
+class SettingError(NeuroyardError, ValueError):
+    """A task setting or an evolver option that is unknown, of the wrong type or out of its
+    range (see :mod:`.options`); a ``ValueError`` too, so an evolver's ``__init__`` may let
+    it through as the contract's configuration error."""

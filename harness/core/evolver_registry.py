@@ -13,12 +13,14 @@ import json
 import tomllib
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
+from functools import cached_property
 from importlib.metadata import entry_points
 from pathlib import Path
 from typing import Any
 
-from neuroyard.harness.core.errors import EvolverError
+from neuroyard.harness.core.errors import EvolverError, SettingError
 from neuroyard.harness.core.evolver import Evolver
+from neuroyard.harness.core.options import OptionTable
 
 ENTRY_POINT_GROUP = "neuroyard.evolvers"
 
@@ -29,16 +31,30 @@ EvolverFactory = Callable[..., Evolver]
 class EvolverSpec:
     """A named evolver and its configuration: everything needed to build it in any process.
 
-    ``name`` is an entry-point name or a ``module:attr`` path; ``config`` is passed to the
-    factory as keyword arguments. ``config_hash`` identifies the configuration in results.
+    ``name`` is an entry-point name or a ``module:attr`` path; ``config`` (the options
+    given) is passed to the factory as keyword arguments. ``effective_config`` is the
+    configuration the evolver runs under and ``config_hash`` identifies it in results.
     """
 
     name: str
     config: Mapping[str, Any] = field(default_factory=dict)
 
+    @cached_property
+    def effective_config(self) -> dict[str, Any]:
+        """Every declared option with its value, given or default, when the factory declares
+        an option table (``options``); else the given configuration as it is. A bad option
+        is an :class:`EvolverError` naming it."""
+        table = option_table(load_factory(self.name))
+        if table is None:
+            return dict(self.config)
+        try:
+            return table.resolve(self.config)
+        except ValueError as exc:
+            raise EvolverError(str(exc)) from None
+
     @property
     def config_hash(self) -> str:
-        text = json.dumps(self.config, sort_keys=True, default=str)
+        text = json.dumps(self.effective_config, sort_keys=True, default=str)
         return hashlib.sha256(text.encode()).hexdigest()[:12]
 
     def build(self) -> Evolver:
@@ -46,8 +62,29 @@ class EvolverSpec:
         factory = load_factory(self.name)
         try:
             return factory(**dict(self.config))
+        except SettingError as exc:
+            raise EvolverError(str(exc)) from None
         except (TypeError, ValueError) as exc:
             raise EvolverError(f"evolver {self.name!r}: bad configuration: {exc}") from None
+
+
+def option_table(factory: Any) -> OptionTable | None:
+    """The factory's declared options (its ``options`` attribute), or None."""
+    table = getattr(factory, "options", None)
+    return table if isinstance(table, OptionTable) else None
+
+
+def canonical_config(name: str, config: Mapping[str, Any]) -> dict[str, Any]:
+    """``config`` with every former option name replaced by the current one (stored records
+    written before a rename); unchanged when the evolver is not installed or declares no
+    options."""
+    try:
+        table = option_table(load_factory(name))
+    except EvolverError:
+        return dict(config)
+    if table is None:
+        return dict(config)
+    return {table.canonical(key): value for key, value in config.items()}
 
 
 def available() -> dict[str, str]:

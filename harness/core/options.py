@@ -1,11 +1,31 @@
-"""Type rule shared by every settings table (task settings, evolver configurations), and
-the option tables of the small reference evolvers."""
+"""One declarative settings mechanism for tasks and evolvers alike.
+
+Each setting is declared once, as an :class:`Option`: its name, default, type (given by the
+default, or ``kind`` when the default is None), allowed range or choices, unit, meaning and
+the source of its default. An :class:`OptionTable` of them is used for everything else:
+
+* validation (:meth:`OptionTable.resolve`): unknown names, wrong types and values outside
+  the range are a :class:`~.errors.SettingError` that names the owner, the option, the value
+  and what is allowed;
+* the effective-settings record: ``resolve`` returns every option with its value, given or
+  default, so a run records all of them;
+* listing (:meth:`OptionTable.describe`): ``neuroyard tasks`` and ``neuroyard evolvers``.
+
+Types: an int may stand for a float (and becomes a float); a bool is never a number. A value
+given as text for a non-text option (``key=value`` on a command line or in a file) is read
+as a TOML value (``"3"`` -> 3, ``"true"`` -> True). An option renamed keeps its former names
+in ``aliases``, so stored configurations that use them still resolve.
+"""
 
 from __future__ import annotations
 
-from collections.abc import Callable, Mapping
-from dataclasses import dataclass, field
+import math
+import tomllib
+from collections.abc import Iterable, Iterator, Mapping
+from dataclasses import dataclass
 from typing import Any
+
+from neuroyard.harness.core.errors import SettingError
 
 
 def matches_default(default: Any, value: Any) -> bool:
@@ -22,36 +42,193 @@ def matches_default(default: Any, value: Any) -> bool:
 
 @dataclass(frozen=True)
 class Option:
-    """One option of an evolver: its default (which gives its type: an int may stand for a
-    float, a bool is never a number), whether None is allowed, and its range as a test with
-    the words an error shows (``rule``, e.g. ``">= 1"``)."""
+    """One setting of a task or an evolver.
 
+    ``low``/``high``: inclusive bounds; ``above``: an exclusive lower bound (``> above``);
+    ``choices``: the allowed values of a text option; numbers must also be finite.
+    ``kind``: the type when ``default`` is None (then ``nullable`` is implied).
+    ``unit``: of the value (``"s"``, ``"kg"``; empty for counts and plain numbers).
+    ``source``: where the default comes from (a paper and section, ``common practice``,
+    ``from memory`` or ``ours``). ``aliases``: former names that are still read.
+    """
+
+    name: str
     default: Any
-    rule: str = ""
-    valid: Callable[[Any], bool] = field(default=lambda value: True, compare=False)
-    kind: type | None = None  # the type when the default is None
-    nullable: bool = False
+    help: str = ""
+    unit: str = ""
+    source: str = ""
+    low: float | None = None
+    high: float | None = None
+    above: float | None = None
+    choices: tuple[Any, ...] = ()
+    kind: type | None = None
+    aliases: tuple[str, ...] = ()
 
+    @property
+    def type_name(self) -> str:
+        kind = self.kind if self.default is None else type(self.default)
+        name = "number" if kind is float else "whole number" if kind is int else kind.__name__
+        return name + (" or none" if self.default is None else "")
 
-def resolve_options(options: Mapping[str, Option], given: Mapping[str, Any]) -> dict[str, Any]:
-    """Every option with its value: given or default. A ``ValueError`` names the option for
-    an unknown key, a value of the wrong type, or one that breaks its rule."""
-    unknown = sorted(set(given) - set(options))
-    if unknown:
-        known = ", ".join(sorted(options))
-        raise ValueError(f"unknown option {unknown[0]!r} (known: {known})")
-    values = {}
-    for name, option in options.items():
-        value = given.get(name, option.default)
-        example = option.default if option.kind is None else option.kind()
-        if value is None and option.nullable:
-            values[name] = None
-            continue
+    @property
+    def rule(self) -> str:
+        """The allowed values in words (empty: any value of the type)."""
+        if self.choices:
+            return "one of " + ", ".join(str(c) for c in self.choices)
+        parts = []
+        if self.above is not None:
+            parts.append(f"> {self.above:g}")
+        if self.low is not None and self.high is not None:
+            parts.append(f"within {self.low:g}..{self.high:g}")
+        elif self.low is not None:
+            parts.append(f">= {self.low:g}")
+        elif self.high is not None:
+            parts.append(f"<= {self.high:g}")
+        return " and ".join(parts)
+
+    def check(
+        self, value: Any, owner: str, noun: str, error: type[Exception] = SettingError
+    ) -> Any:
+        """``value`` validated and coerced (int -> float for a float option); ``error``
+        names the owner, the option, the value and what is allowed."""
+        if isinstance(value, str) and not isinstance(self.default, str) and self.kind is not str:
+            value = _parse_text(value)
+        if value is None and self.default is None:
+            return None
+        example = self.default if self.default is not None else self.kind()
         if not matches_default(example, value):
-            expected = type(example).__name__ + (" or none" if option.nullable else "")
-            raise ValueError(f"option {name!r} must be {expected}, got {value!r}")
-        value = float(value) if isinstance(example, float) else value
-        if not option.valid(value):
-            raise ValueError(f"option {name!r} must be {option.rule}, got {value!r}")
-        values[name] = value
-    return values
+            raise error(f"{owner}: {noun} {self.name!r} must be a {self.type_name}, got {value!r}")
+        if isinstance(example, float):
+            value = float(value)
+        if not self._allowed(value):
+            allowed = self.rule or "finite"
+            raise error(f"{owner}: {noun} {self.name!r} must be {allowed}, got {value!r}")
+        return value
+
+    def _allowed(self, value: Any) -> bool:
+        if self.choices:
+            return value in self.choices
+        if isinstance(value, bool) or not isinstance(value, int | float):
+            return True
+        return (
+            math.isfinite(value)
+            and (self.above is None or value > self.above)
+            and (self.low is None or value >= self.low)
+            and (self.high is None or value <= self.high)
+        )
+
+    def describe(self) -> dict[str, Any]:
+        """The option as a listing row (JSON values)."""
+        return {
+            "name": self.name,
+            "default": self.default,
+            "type": self.type_name,
+            "allowed": self.rule,
+            "unit": self.unit,
+            "help": self.help,
+            "source": self.source,
+            "aliases": list(self.aliases),
+        }
+
+
+class OptionTable:
+    """The options of one owner (``"task xor-v2"``, ``"evolver neat"``), in declared order.
+
+    ``noun`` is the word errors use (``"setting"`` for tasks, ``"option"`` for evolvers),
+    ``error`` the exception they raise (a :class:`SettingError` unless the owner's layer has
+    its own, as tasks have :class:`~.errors.TaskError`)."""
+
+    def __init__(
+        self,
+        owner: str,
+        options: Iterable[Option],
+        noun: str = "option",
+        error: type[Exception] = SettingError,
+    ) -> None:
+        self.owner = owner
+        self.noun = noun
+        self.error = error
+        self._options = {o.name: o for o in options}
+        self._aliases = {alias: o.name for o in self._options.values() for alias in o.aliases}
+
+    def __iter__(self) -> Iterator[Option]:
+        return iter(self._options.values())
+
+    def __contains__(self, name: object) -> bool:
+        return name in self._options or name in self._aliases
+
+    def __getitem__(self, name: str) -> Option:
+        return self._options[self._aliases.get(name, name)]
+
+    def __len__(self) -> int:
+        return len(self._options)
+
+    @property
+    def names(self) -> list[str]:
+        return list(self._options)
+
+    def defaults(self) -> dict[str, Any]:
+        return {name: option.default for name, option in self._options.items()}
+
+    def canonical(self, name: str) -> str:
+        """The current name of ``name`` (itself, or the option it is a former name of)."""
+        return self._aliases.get(name, name)
+
+    def resolve(self, given: Mapping[str, Any] | None = None) -> dict[str, Any]:
+        """Every option with its value, given or default (see the module docstring)."""
+        values = self.defaults()
+        seen: dict[str, str] = {}
+        for key, raw in (given or {}).items():
+            name = self.canonical(key)
+            if name not in self._options:
+                known = ", ".join(self._options) or "none"
+                raise self.error(f"{self.owner}: unknown {self.noun} {key!r} (known: {known})")
+            if name in seen:
+                raise self.error(
+                    f"{self.owner}: {self.noun} {name!r} is given twice (as {seen[name]!r} "
+                    f"and {key!r})"
+                )
+            seen[name] = key
+            values[name] = self._options[name].check(raw, self.owner, self.noun, self.error)
+        return values
+
+    def describe(self) -> list[dict[str, Any]]:
+        return [option.describe() for option in self._options.values()]
+
+
+def _parse_text(text: str) -> Any:
+    """A value given as text, read as a TOML value; the text itself when it is none."""
+    try:
+        return tomllib.loads(f"v = {text}")["v"]
+    except tomllib.TOMLDecodeError:
+        return text
+
+
+def distribute(
+    assignments: Iterable[tuple[str, Any]],
+    tables: Mapping[str, OptionTable | None],
+    flag: str,
+) -> dict[str, dict[str, Any]]:
+    """Share ``KEY=VALUE`` assignments out among owners (the tasks or evolvers of a campaign,
+    each with its option table, or None when it declares none).
+
+    ``OWNER:KEY`` goes to that owner only (an owner not in ``tables`` is an error); a plain
+    ``KEY`` goes to every owner that has the option (and to every owner without a table,
+    which cannot tell), and is an error only when no owner takes it. Checking the values is
+    left to each owner's table. ``flag`` names the command-line option in errors."""
+    out: dict[str, dict[str, Any]] = {owner: {} for owner in tables}
+    for key, value in assignments:
+        owner, sep, name = key.rpartition(":")
+        if sep:
+            if owner not in tables:
+                known = ", ".join(tables)
+                raise SettingError(f"{flag} {key}: {owner!r} is not in this campaign ({known})")
+            out[owner][name] = value
+            continue
+        takers = [o for o, table in tables.items() if table is None or name in table]
+        if not takers:
+            known = ", ".join(tables)
+            raise SettingError(f"{flag} {key}: none of {known} has {name!r}")
+        for owner in takers:
+            out[owner][name] = value
+    return out

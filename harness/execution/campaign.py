@@ -1,8 +1,10 @@
 """A campaign: evolvers x tasks x run indices, executed run by run into a results store.
 
 Runs whose key is already in the store are skipped, so an interrupted campaign resumes
-where it stopped. Runs execute on supervised worker processes (:mod:`.supervisor`) or, for
-debugging, in this process; either way only this coordinator process writes to the store,
+where it stopped. A run's key is computed from resolved values (the effective budget and
+every task setting, defaults merged), so asking for a default explicitly changes nothing.
+Runs execute on an executor (:mod:`.executors`: supervised worker processes, or this
+process for debugging); either way only this coordinator process writes to the store,
 one transaction per finished run. Several coordinators may run the same campaign on one
 store at once: they claim runs before starting them and so split the work.
 """
@@ -16,7 +18,7 @@ import signal
 import sqlite3
 import threading
 import time
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, NamedTuple
@@ -26,24 +28,46 @@ from tqdm import tqdm
 from neuroyard.harness.core.errors import StoreError
 from neuroyard.harness.core.evolver_registry import EvolverSpec
 from neuroyard.harness.execution import crashlog
-from neuroyard.harness.execution.supervisor import InProcess, Limits, Supervisor
+from neuroyard.harness.execution.executors import Executor, make_executor
 from neuroyard.harness.records.runs import RunRecord, RunSpec
 from neuroyard.harness.records.store import ResultStore, owner_id
+from neuroyard.tasks import make
 
 WAIT_FOR_OTHERS = 1.0  # s between looks at runs that other coordinators are running
 
 
 @dataclass(frozen=True)
 class TaskChoice:
-    """A task id with the settings it runs under (defaults for settings not given)."""
+    """A task id with the settings given for it (defaults for settings not given)."""
 
     id: str
     settings: dict[str, Any] = field(default_factory=dict)
 
+    def resolved(self, budget: int | None) -> tuple[dict[str, Any], int]:
+        """Every setting of the task (defaults merged, checked) and the effective budget:
+        ``budget``, or the task's default when None. Builds the task once to check them."""
+        task = make(self.id, **self.settings)
+        return dict(task.settings), budget if budget is not None else task.spec.default_budget
+
+
+def plan_run(
+    evolver: EvolverSpec,
+    task: str,
+    run_index: int,
+    campaign_seed: int,
+    budget: int | None = None,
+    settings: Mapping[str, Any] | None = None,
+) -> RunSpec:
+    """The spec of one run with resolved values (see :class:`RunSpec`): ``budget`` None is
+    the task's default, ``settings`` are merged with the task's defaults."""
+    merged, effective = TaskChoice(task, dict(settings or {})).resolved(budget)
+    return RunSpec(evolver, task, run_index, campaign_seed, effective, merged)
+
 
 @dataclass(frozen=True)
 class CampaignPlan:
-    """What to run: every evolver on every task, ``runs`` times, from one campaign ``seed``."""
+    """What to run: every evolver on every task, ``runs`` times, from one campaign ``seed``;
+    ``budget`` None: each task's default budget."""
 
     evolvers: Sequence[EvolverSpec]
     tasks: Sequence[TaskChoice]
@@ -52,20 +76,28 @@ class CampaignPlan:
     budget: int | None = None
 
     def expand(self) -> list[RunSpec]:
+        """Every run, with resolved budget and settings (so its key is the same however
+        the values were asked for)."""
+        resolved = [(task.id, *task.resolved(self.budget)) for task in self.tasks]
         return [
-            RunSpec(evolver, task.id, index, self.seed, self.budget, dict(task.settings))
+            RunSpec(evolver, task, index, self.seed, budget, settings)
             for evolver in self.evolvers
-            for task in self.tasks
+            for task, settings, budget in resolved
             for index in range(self.runs)
         ]
 
     def describe(self) -> dict[str, Any]:
+        """The plan in resolved values: effective evolver configurations, every task
+        setting and each task's effective budget."""
+        tasks = []
+        for task in self.tasks:
+            settings, budget = task.resolved(self.budget)
+            tasks.append({"id": task.id, "settings": settings, "budget": budget})
         return {
-            "evolvers": [{"name": e.name, "config": dict(e.config)} for e in self.evolvers],
-            "tasks": [{"id": t.id, "settings": t.settings} for t in self.tasks],
+            "evolvers": [{"name": e.name, "config": e.effective_config} for e in self.evolvers],
+            "tasks": tasks,
             "runs": self.runs,
             "seed": self.seed,
-            "budget": self.budget,
         }
 
     @property
@@ -89,16 +121,14 @@ class CampaignResult(NamedTuple):
 def execute(
     plan: CampaignPlan,
     store: ResultStore,
-    workers: int = 1,
+    executor: Executor | None = None,
     progress: bool = True,
     on_record: Callable[[RunRecord], None] | None = None,
-    limits: Limits | None = None,
-    in_process: bool = False,
 ) -> CampaignResult:
     """Run every run of ``plan`` not yet in ``store`` (see module docstring).
 
-    Runs execute on ``workers`` supervised worker processes under ``limits``, or with
-    ``in_process`` in this process without limits. Each pending run is claimed in the
+    Runs execute on ``executor`` (:mod:`.executors`; default one supervised worker
+    process), which this function closes when it returns. Each pending run is claimed in the
     store before it starts, so other coordinators on the same store take other runs; when
     only runs claimed elsewhere are left, this process waits for them (or for their claims
     to expire and takes them over). A Ctrl-C (KeyboardInterrupt) ends the workers, keeps
@@ -111,7 +141,7 @@ def execute(
     done = errors = 0
     crash_log: Path | None = None
     owner = owner_id()
-    executor = InProcess(limits) if in_process else Supervisor(workers, limits)
+    executor = executor if executor is not None else make_executor("pool")
     running: set[str] = set()
     interrupted = False
     bar = tqdm(total=len(remaining), unit="run", delay=3.0, disable=not progress or not remaining)

@@ -20,7 +20,7 @@ a generation"). A generation in which every network was tested before runs no te
 
 Timing (``RunRecord.timing``, seconds of wall time): ``evolver`` inside the evolver's calls,
 ``kernel_load`` loading (or compiling) the task's numba kernels, which happens once per
-process and task, on a throw-away task instance, before the run starts; ``harness`` the
+process and task setting, on the run's task (built once per run) before the run starts; ``harness`` the
 rest (validation, compilation, evaluation, success tests, bookkeeping); ``wall`` the sum.
 """
 
@@ -37,7 +37,7 @@ from neuroyard.harness.core.batch import CompiledBatch, compile_batch
 from neuroyard.harness.core.compiled import fingerprint
 from neuroyard.harness.core.errors import NetworkError
 from neuroyard.harness.core.evolver import MAX_BATCH, Evaluation, Outcome
-from neuroyard.harness.core.network import Network, fully_connected, to_dict
+from neuroyard.harness.core.network import Network, to_dict
 from neuroyard.harness.execution import provenance
 from neuroyard.harness.execution.seeds import evolver_seed, task_seed
 from neuroyard.harness.records.runs import (
@@ -48,7 +48,7 @@ from neuroyard.harness.records.runs import (
     RunRecord,
     RunSpec,
 )
-from neuroyard.tasks import make
+from neuroyard.tasks import Task, make
 
 
 class RunFault(Exception):
@@ -166,46 +166,33 @@ def bound_fitness(
 _WARM: set[str] = set()
 
 
-def load_kernels(task_id: str, settings: Mapping[str, Any]) -> float:
-    """Compile, evaluate and success-test one minimal network on a separate instance of the
-    task, once per process and task setting, so that loading the numba kernels is not
-    charged to the first run's harness time (and the run's own task RNG is untouched).
-    Returns the seconds spent (0.0 when already done in this process)."""
-    key = json.dumps([task_id, dict(settings)], sort_keys=True, default=str)
+def load_kernels(task: Task) -> float:
+    """Load (or compile) the task's numba kernels before the run starts, once per process
+    and task setting, so that it is not charged to the first run's harness time
+    (:meth:`~neuroyard.tasks.base.Task.warm_up`). Returns the seconds spent (0.0 when
+    already done in this process)."""
+    key = json.dumps([task.id, task.settings], sort_keys=True, default=str)
     if key in _WARM:
         return 0.0
     start = time.perf_counter()
-    task = make(task_id, seed=0, **settings)
-    net = fully_connected(task.spec.inputs, task.spec.outputs)
-    compiled = compile_batch([net], task.spec.inputs, task.spec.outputs, "warm-up network".format)
-    (result,) = task.evaluate_batch(compiled)
-    task.success_test(compiled.network(0), result)
+    task.warm_up()
     _WARM.add(key)
     return time.perf_counter() - start
 
 
-def _task_of(spec: RunSpec) -> Any:
-    """The task instance of run ``spec``, built with the run's task seed."""
-    return make(spec.task, seed=task_seed(spec.campaign_seed, spec.task, spec.run_index),
-                **spec.task_settings)  # fmt: skip
-
-
-def new_record(spec: RunSpec, task: Any = None) -> RunRecord:
-    """The record of ``spec`` before it runs: seeds, budget, settings, versions, host.
-    ``task``: the run's task instance, built here when not given."""
-    if task is None:
-        task = _task_of(spec)
+def new_record(spec: RunSpec) -> RunRecord:
+    """The record of ``spec`` before it runs: seeds, budget, settings, versions, host."""
     return RunRecord(
         evolver=spec.evolver.name,
         config=dict(spec.evolver.config),
         config_hash=spec.evolver.config_hash,
         task=spec.task,
-        task_settings=dict(task.settings),
+        task_settings=dict(spec.task_settings),
         run_index=spec.run_index,
         campaign_seed=spec.campaign_seed,
         seed=evolver_seed(spec.campaign_seed, spec.evolver.name, spec.task, spec.run_index),
-        task_seed=task.seed,
-        budget=spec.budget if spec.budget is not None else task.spec.default_budget,
+        task_seed=task_seed(spec.campaign_seed, spec.task, spec.run_index),
+        budget=spec.budget,
         versions=provenance.versions(),
         host=provenance.host(),
     )
@@ -223,9 +210,9 @@ def run_one(
     is the most networks one ``ask()`` may return; ``memory_limit_mb``, when the process
     runs under a memory limit, is named in the reason of a run that ran out of memory."""
     wall_start = time.perf_counter()
-    kernel_load = load_kernels(spec.task, spec.task_settings)
-    task = _task_of(spec)
-    record = new_record(spec, task)
+    record = new_record(spec)
+    task = make(spec.task, seed=record.task_seed, **spec.task_settings)  # once per run
+    kernel_load = load_kernels(task)
     budget = record.budget
     seed = record.seed
     clock = _Clock(watch or _Unwatched(), memory_limit_mb)

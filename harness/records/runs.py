@@ -17,30 +17,71 @@ from neuroyard.harness.core.evolver_registry import EvolverSpec
 SOLVED, UNSOLVED, FAILED = "solved", "unsolved", "failed"
 
 
+def run_key(
+    evolver: str,
+    config_hash: str,
+    task: str,
+    task_settings: Mapping[str, Any],
+    campaign_seed: int,
+    run_index: int,
+    budget: int,
+) -> str:
+    """Identity of a run in the results store, from resolved values only: the evolver's
+    effective configuration (by its hash), every task setting (defaults merged) and the
+    effective budget. So the same run asked for with or without a value equal to its
+    default has one key."""
+    ident = {
+        "evolver": evolver,
+        "config": config_hash,
+        "task": task,
+        "settings": dict(sorted(task_settings.items())),
+        "seed": campaign_seed,
+        "run": run_index,
+        "budget": budget,
+    }
+    return hashlib.sha256(json.dumps(ident, sort_keys=True).encode()).hexdigest()[:24]
+
+
 @dataclass(frozen=True)
 class RunSpec:
-    """Everything that identifies a run; the same spec always gives the same result."""
+    """Everything that identifies a run; the same spec always gives the same result.
+
+    Holds resolved values: ``budget`` is the effective budget (the task's default when none
+    was asked for) and ``task_settings`` every setting of the task, defaults merged
+    (:func:`neuroyard.harness.execution.campaign.plan_run` resolves them)."""
 
     evolver: EvolverSpec
     task: str
     run_index: int
     campaign_seed: int
-    budget: int | None = None  # None: the task's default budget
-    task_settings: Mapping[str, Any] = field(default_factory=dict)
+    budget: int
+    task_settings: Mapping[str, Any]
 
     @property
     def key(self) -> str:
         """Identity in the results store: a finished run with this key is not run again."""
-        ident = {
-            "evolver": self.evolver.name,
-            "config": self.evolver.config_hash,
-            "task": self.task,
-            "settings": dict(sorted(self.task_settings.items())),
-            "seed": self.campaign_seed,
-            "run": self.run_index,
-            "budget": self.budget,
-        }
-        return hashlib.sha256(json.dumps(ident, sort_keys=True).encode()).hexdigest()[:24]
+        return run_key(
+            self.evolver.name,
+            self.evolver.config_hash,
+            self.task,
+            self.task_settings,
+            self.campaign_seed,
+            self.run_index,
+            self.budget,
+        )
+
+
+def record_key(record: RunRecord) -> str:
+    """The key of the run a stored record belongs to (its recorded values are resolved)."""
+    return run_key(
+        record.evolver,
+        record.config_hash,
+        record.task,
+        record.task_settings,
+        record.campaign_seed,
+        record.run_index,
+        record.budget,
+    )
 
 
 @dataclass

@@ -24,9 +24,14 @@ two coordinators (a claim taken over from a stalled one) is stored once.
 rule of :mod:`.jsonsafe`).
 
 Schema versions: 1 had no ``champion_test`` column in ``generations``; 2 had no
-``non_finite_fitness`` column and no ``claims`` table. An older store is read as it is (missing
-columns read as their defaults) and is upgraded inside the transaction of the first write
-to it, so an upgrade that fails leaves the store as it was.
+``non_finite_fitness`` column and no ``claims`` table; 3 keyed runs by the values as given
+(a budget or setting left at its default hashed differently from the same value given) and
+may hold former option names. An older store is read as it is (missing columns read as
+their defaults, former option names read as the current ones) and is upgraded inside the
+transaction of the first write to it, so an upgrade that fails leaves the store as it was.
+The upgrade to 4 recomputes every run's key and configuration hash from its recorded,
+resolved values (:func:`~.runs.record_key`); a run stored twice under the old keys (asked
+for once with and once without a default value) is kept once, the first stored.
 """
 
 from __future__ import annotations
@@ -39,17 +44,18 @@ import socket
 import sqlite3
 import threading
 import time
-from collections.abc import Iterable, Iterator, Mapping
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from contextlib import contextmanager
 from dataclasses import asdict
 from pathlib import Path
 from typing import Any
 
 from neuroyard.harness.core import jsonsafe
-from neuroyard.harness.core.errors import StoreError
-from neuroyard.harness.records.runs import GenerationLog, RunRecord
+from neuroyard.harness.core.errors import EvolverError, StoreError
+from neuroyard.harness.core.evolver_registry import EvolverSpec, canonical_config
+from neuroyard.harness.records.runs import GenerationLog, RunRecord, record_key
 
-SCHEMA_VERSION = 3
+SCHEMA_VERSION = 4
 READABLE_VERSIONS = tuple(str(v) for v in range(1, SCHEMA_VERSION + 1))  # older ones upgrade
 DEFAULT_PATH = Path("results") / "neuroyard.db"
 CLAIM_EXPIRY = 60.0  # s without a heartbeat after which a claim is void (ours)
@@ -102,13 +108,55 @@ CREATE TABLE IF NOT EXISTS generations (
     + _CLAIMS
     + ";"
 )
-# Statements that bring a store of version v to v + 1 (run inside a write transaction).
-_UPGRADES = {
-    1: ("ALTER TABLE generations ADD COLUMN champion_test TEXT NOT NULL DEFAULT '{}'",),
-    2: (
+
+
+def _statements(*sql: str) -> Callable[[sqlite3.Connection], None]:
+    def upgrade(db: sqlite3.Connection) -> None:
+        for statement in sql:
+            db.execute(statement)
+
+    return upgrade
+
+
+def _rekey(db: sqlite3.Connection) -> None:
+    """Version 3 -> 4: every run keyed by its resolved values, under current option names."""
+    taken: set[str] = set()
+    rows = db.execute("SELECT id, record FROM runs ORDER BY id").fetchall()
+    for run_id, text in rows:
+        record = _current_names(RunRecord.from_dict({**jsonsafe.loads(text), "log": []}))
+        # an evolver not installed here, or whose options changed, keeps its hash
+        with contextlib.suppress(EvolverError):
+            record.config_hash = EvolverSpec(record.evolver, record.config).config_hash
+        key = record_key(record)
+        if key in taken:  # the same run stored twice under the old keys
+            db.execute("DELETE FROM generations WHERE run_id=?", (run_id,))
+            db.execute("DELETE FROM runs WHERE id=?", (run_id,))
+            continue
+        taken.add(key)
+        doc = record.to_dict()
+        doc.pop("log")
+        db.execute(
+            "UPDATE runs SET run_key=?, config_hash=?, record=? WHERE id=?",
+            (key, record.config_hash, jsonsafe.dumps(doc, sort_keys=True), run_id),
+        )
+    db.execute("DELETE FROM claims")
+
+
+def _current_names(record: RunRecord) -> RunRecord:
+    """``record`` with former evolver option names replaced by the current ones."""
+    record.config = canonical_config(record.evolver, record.config)
+    record.evolver_settings = canonical_config(record.evolver, record.evolver_settings)
+    return record
+
+
+# What brings a store of version v to v + 1 (run inside a write transaction).
+_UPGRADES: dict[int, Callable[[sqlite3.Connection], None]] = {
+    1: _statements("ALTER TABLE generations ADD COLUMN champion_test TEXT NOT NULL DEFAULT '{}'"),
+    2: _statements(
         "ALTER TABLE generations ADD COLUMN non_finite_fitness INTEGER NOT NULL DEFAULT 0",
         _CLAIMS,
     ),
+    3: _rekey,
 }
 
 
@@ -205,8 +253,7 @@ class ResultStore:
             self.db.execute("BEGIN IMMEDIATE")
             try:
                 for version in range(self.version, SCHEMA_VERSION):
-                    for statement in _UPGRADES[version]:
-                        self.db.execute(statement)
+                    _UPGRADES[version](self.db)
                 if self.version < SCHEMA_VERSION:
                     self.db.execute(
                         "UPDATE meta SET value=? WHERE key='schema_version'",
@@ -372,7 +419,8 @@ class ResultStore:
         for run_id, text in rows:
             doc = jsonsafe.loads(text)
             doc["log"] = self._log(run_id) if with_log else []
-            yield RunRecord.from_dict(doc)
+            record = RunRecord.from_dict(doc)
+            yield record if self.version >= 4 else _current_names(record)
 
     def _log(self, run_id: int) -> list[dict[str, Any]]:
         champion_test = "champion_test" if self.version >= 2 else "'{}'"

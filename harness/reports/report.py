@@ -1,4 +1,6 @@
-"""Reports: per evolver and task, the measured figures beside the published ones.
+"""Report rows: per evolver and task, the measured figures beside the published ones.
+
+How rows are written (text, Markdown, JSON, ...) is the job of :mod:`.renderers`.
 
 Rows group runs by evolver (name and configuration), task and task settings. Published
 figures (from ``reference/``) are shown next to the measured value of the same metric,
@@ -17,19 +19,15 @@ chance; a large p says only that these runs cannot tell the two apart.
 from __future__ import annotations
 
 import json
-import math
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
-from tabulate import tabulate
-
-from neuroyard.harness.core import jsonsafe
 from neuroyard.harness.records.runs import FAILED, RunRecord
 from neuroyard.harness.reports.stats import GroupSummary, fisher_p_value, summarize, welch_p_value
 from neuroyard.reference.published import figures_for
+from neuroyard.tasks import Metric, declared_metrics
 
-FORMATS = ("text", "json", "markdown")
 # Metrics that describe the experiment (sample size, population) rather than its outcome:
 # shown side by side, never as a ratio.
 _SAMPLE_METRICS = ("runs", "population")
@@ -68,6 +66,8 @@ class ReportRow:
     # (run index, generations, reason) of every failed run: one that broke, not one that
     # spent its budget unsolved.
     failures: tuple[tuple[int, int, str], ...] = ()
+    # the task's declared metrics; their means are in ``summary.metrics``
+    metrics: tuple[Metric, ...] = ()
 
     def to_json(self) -> dict[str, Any]:
         s = self.summary
@@ -79,7 +79,8 @@ class ReportRow:
             "evolver_settings": self.evolver_settings,
             "evolver_config": self.evolver_config,
         }
-        row.update({k: v for k, v in asdict(s).items() if k != "success_ci"})
+        row.update({k: v for k, v in asdict(s).items() if k not in ("success_ci", "metrics")})
+        row["metrics"] = [{**asdict(m), "mean": s.metrics.get(m.name)} for m in self.metrics]
         row["success_ci_low"], row["success_ci_high"] = s.success_ci
         row["published"] = [asdict(c) for c in self.comparisons]
         row["failures"] = [
@@ -89,13 +90,16 @@ class ReportRow:
 
 
 def _measured(metric: str, s: GroupSummary, settings: dict[str, Any]) -> float | None:
+    """The measured value of a published figure's ``metric``: a summary field, or
+    ``mean_<name>`` of a metric the task declares."""
     if metric == "failures":
         return float(s.runs - s.solved)
     if metric == "population":
         value = settings.get("population_size")
         return float(value) if isinstance(value, int | float) else None
-    value = getattr(s, metric, None)
-    return float(value) if value is not None else None
+    task_metric = metric.removeprefix("mean_")
+    value = s.metrics[task_metric] if task_metric in s.metrics else getattr(s, metric, None)
+    return float(value) if isinstance(value, int | float) else None
 
 
 def _test(metric: str, published: Mapping[str, float], s: GroupSummary) -> tuple[float | None, str]:
@@ -160,7 +164,8 @@ def build(records: Iterable[RunRecord]) -> list[ReportRow]:
         groups.setdefault(key, []).append(r)
     rows = []
     for (evolver, config_hash, task, _), group in sorted(groups.items()):
-        summary = summarize(group)
+        metrics = declared_metrics(task, group[0].task_settings)
+        summary = summarize(group, [m.name for m in metrics])
         rows.append(
             ReportRow(
                 evolver,
@@ -176,164 +181,15 @@ def build(records: Iterable[RunRecord]) -> list[ReportRow]:
                     for r in group
                     if r.status == FAILED
                 ),
+                metrics,
             )
         )
     return rows
 
 
-def _num(x: float | None, digits: int = 1) -> str:
-    if x is None:
-        return "-"
-    if math.isinf(x):
-        return "inf"
-    return f"{x:,.{digits}f}" if digits else f"{x:,.0f}"
-
-
-def _main_table(rows: Sequence[ReportRow], fmt: str) -> str:
-    labels = {(r.evolver, r.config_hash) for r in rows}
-    names = {r.evolver for r in rows}
-    multi = len(labels) > len(names)  # same evolver under several configurations
-    table = []
-    for r in rows:
-        s = r.summary
-        name = f"{r.evolver} [{r.config_hash[:6]}]" if multi else r.evolver
-        table.append(
-            [
-                name,
-                r.task,
-                s.runs,
-                s.solved,
-                s.failed,
-                f"{s.success_rate:.0%} ({s.success_ci[0]:.0%}-{s.success_ci[1]:.0%})",
-                _num(s.mean_evaluations, 0),
-                _num(s.median_evaluations, 0),
-                _num(s.ert, 0),
-                _num(s.mean_generations),
-                _num(s.mean_hidden_nodes, 2),
-                _num(s.mean_connections, 2),
-            ]
-        )
-    head = [
-        "evolver",
-        "task",
-        "runs",
-        "solved",
-        "failed",
-        "success (95% CI)",
-        "mean evals",
-        "median evals",
-        "ERT",
-        "mean gens",
-        "hidden",
-        "connections",
-    ]
-    return tabulate(table, head, tablefmt="github" if fmt == "markdown" else "simple")
-
-
-def _published_table(rows: Sequence[ReportRow], fmt: str) -> str:
-    table = []
-    for r in rows:
-        for c in r.comparisons:
-            table.append(
-                [
-                    r.evolver,
-                    r.task,
-                    c.method,
-                    c.metric,
-                    _num(c.measured, 2),
-                    _num(c.published, 2),
-                    _num(c.ratio, 2) if c.comparable else "-",
-                    f"{c.p_value:.2g} ({c.test})" if c.p_value is not None else "-",
-                    c.provenance + (" (from memory)" if c.from_memory else ""),
-                    "yes" if c.comparable else "no: " + "; ".join(c.mismatches),
-                    c.source,
-                ]
-            )
-    if not table:
-        return ""
-    head = [
-        "evolver",
-        "task",
-        "method",
-        "metric",
-        "measured",
-        "published",
-        "ratio",
-        "p (test)",
-        "provenance",
-        "comparable",
-        "source",
-    ]
-    return tabulate(table, head, tablefmt="github" if fmt == "markdown" else "simple")
-
-
-def _failures_table(rows: Sequence[ReportRow], fmt: str) -> str:
-    table = [
-        [r.evolver, r.task, index, generations, reason]
-        for r in rows
-        for index, generations, reason in r.failures
-    ]
-    if not table:
-        return ""
-    head = ["evolver", "task", "run", "generations", "reason"]
-    return tabulate(table, head, tablefmt="github" if fmt == "markdown" else "simple")
-
-
-def _settings_lines(rows: Sequence[ReportRow], fmt: str) -> list[str]:
-    """Every distinct task and evolver setting the rows were measured under.
-
-    Evolver options given for the runs are listed apart from the evolver's defaults, so a
-    reader sees at once which settings were chosen away from them.
-    """
-    bullet = "- " if fmt == "markdown" else "  "
-    seen: dict[str, str] = {}
-    for r in rows:
-        seen.setdefault(f"task {r.task}: {_joined(r.task_settings)}", "")
-        given = {k: r.evolver_settings.get(k, v) for k, v in r.evolver_config.items()}
-        defaults = {k: v for k, v in r.evolver_settings.items() if k not in given}
-        parts = [f"set for these runs: {_joined(given)}"] if given else []
-        if defaults:
-            parts.append(f"the evolver's defaults: {_joined(defaults)}")
-        elif not given:
-            parts.append("the evolver's defaults (it reports no settings)")
-        seen.setdefault(f"evolver {r.evolver} [{r.config_hash[:6]}]: {'; '.join(parts)}", "")
-    return [bullet + line for line in seen]
-
-
-def _joined(settings: Mapping[str, Any]) -> str:
-    return ", ".join(f"{k}={_setting(v)}" for k, v in sorted(settings.items())) or "none"
-
-
-def _setting(value: Any) -> str:
-    return f"{value:.6g}" if isinstance(value, float) else str(value)
-
-
-def render(rows: Sequence[ReportRow], fmt: str = "text") -> str:
-    """The report as text (aligned tables), markdown (GitHub tables) or JSON (a list of rows)."""
-    if fmt == "json":
-        return jsonsafe.dumps([r.to_json() for r in rows], indent=2)
-    if not rows:
-        return "no runs in the store"
-    parts = [_main_table(rows, fmt)]
-    failures = _failures_table(rows, fmt)
-    if failures:
-        title = "Failed runs (the run broke; an unsolved run spent its budget and is not listed)"
-        parts += ["", f"### {title}" if fmt == "markdown" else title, "", failures]
-    published = _published_table(rows, fmt)
-    if published:
-        title = "Published figures beside measured values (ratio = measured / published)"
-        parts += ["", f"### {title}" if fmt == "markdown" else title, "", published]
-    title = "Settings the runs were measured under"
-    parts += ["", f"### {title}" if fmt == "markdown" else title + ":", *_settings_lines(rows, fmt)]
-    notes = (
-        "Evaluations, generations and sizes are over solved runs; success rate and ERT count "
-        "every run (ERT = all evaluations / solved runs). failed: runs that broke (the evolver "
-        'raised, hung, died or broke the contract), listed with their reasons under "Failed '
-        'runs" when there are any, counted as not solved; the other unsolved runs spent '
-        "their budget. p: two-sided p-value that the "
-        "measured and the published runs have the same mean (Welch's t-test) or the same "
-        "success rate (Fisher's exact test), where the paper gives the run "
-        "count and spread the test needs."
-    )
-    parts += ["", notes]
-    return "\n".join(parts)
+def export_record(record: RunRecord) -> dict[str, Any]:
+    """A run record as one JSON object for export: every field, plus ``metrics``, the
+    values of the task's declared metrics from the record's success test."""
+    names = [m.name for m in declared_metrics(record.task, record.task_settings)]
+    details = record.success_details
+    return {**record.to_dict(), "metrics": {n: details[n] for n in names if n in details}}

@@ -14,7 +14,7 @@ from __future__ import annotations
 import math
 import statistics
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from scipy.stats import binomtest, fisher_exact, ttest_ind_from_stats
 
@@ -69,7 +69,10 @@ def _sd(xs: Sequence[float]) -> float | None:
 
 @dataclass(frozen=True)
 class GroupSummary:
-    """Figures of one (evolver, task) group; ``None`` where no solved run gives a value."""
+    """Figures of one (evolver, task) group; ``None`` where no solved run gives a value.
+
+    ``metrics``: the mean over solved runs of each metric the task declares (the detail of
+    that name in each run's success test), None where no solved run reports it."""
 
     runs: int
     solved: int
@@ -86,20 +89,17 @@ class GroupSummary:
     sd_hidden_nodes: float | None
     mean_connections: float | None
     sd_connections: float | None
-    mean_generalization: float | None
     mean_success_evaluations: float | None
+    metrics: dict[str, float | None] = field(default_factory=dict)
 
 
-def summarize(records: Sequence[RunRecord]) -> GroupSummary:
+def summarize(records: Sequence[RunRecord], metrics: Sequence[str] = ()) -> GroupSummary:
+    """Summary of ``records`` (see the module docstring), with the means of the task's
+    declared ``metrics`` (names)."""
     wins = [r for r in records if r.solved]
     evals = [float(r.evaluations) for r in wins]
     hidden = [float(r.hidden_nodes) for r in wins if r.hidden_nodes is not None]
     conns = [float(r.connections) for r in wins if r.connections is not None]
-    general = [
-        float(r.success_details["generalization"])
-        for r in wins
-        if "generalization" in r.success_details
-    ]
     return GroupSummary(
         runs=len(records),
         solved=len(wins),
@@ -116,6 +116,11 @@ def summarize(records: Sequence[RunRecord]) -> GroupSummary:
         sd_hidden_nodes=_sd(hidden),
         mean_connections=_mean(conns),
         sd_connections=_sd(conns),
-        mean_generalization=_mean(general),
         mean_success_evaluations=_mean([float(r.success_evaluations) for r in records]),
+        metrics={name: _metric_mean(wins, name) for name in metrics},
     )
+
+
+def _metric_mean(wins: Sequence[RunRecord], name: str) -> float | None:
+    values = [r.success_details[name] for r in wins if name in r.success_details]
+    return _mean([float(v) for v in values if isinstance(v, int | float)])

@@ -6,7 +6,7 @@ Modules: :mod:`.config` (settings, defaults and their sources in ``defaults.toml
 :mod:`.reproduction`, :mod:`.decode` (genome -> network) and :mod:`.evolver`.
 """
 
-from .config import NeatConfig, make_config, parameters
+from .config import NeatConfig, make_config, option_table
 from .evolver import NeatEvolver
 
-__all__ = ["NeatConfig", "NeatEvolver", "make_config", "parameters"]
+__all__ = ["NeatConfig", "NeatEvolver", "make_config", "option_table"]

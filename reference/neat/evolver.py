@@ -10,7 +10,7 @@ from typing import Any
 from neuroyard.harness.core.evolver import Evaluation, Problem
 from neuroyard.harness.core.network import Network
 
-from .config import NeatConfig, make_config
+from .config import NeatConfig, make_config, option_table
 from .decode import Decoder
 from .genome import Genome, Layout
 from .initial import initial_population
@@ -28,6 +28,8 @@ class NeatEvolver:
     ``config`` holds the full configuration in effect. Randomness comes only from the seed
     given to :meth:`start`, so a run is reproducible.
     """
+
+    options = option_table()
 
     def __init__(self, **settings: Any) -> None:
         self.config: NeatConfig = make_config(settings)

@@ -49,17 +49,17 @@ def mutate(
 
 
 def mutate_weights(genome: Genome, rng: random.Random, config: NeatConfig) -> None:
-    """Each weight: uniform perturbation in [-power, +power] with ``weight_perturb_prob``,
+    """Each weight: uniform perturbation in [-half_width, +half_width] with ``weight_perturb_prob``,
     otherwise a new value uniform in [-weight_replace_range, +weight_replace_range]; then
     clipped to [-weight_limit, +weight_limit]."""
-    power = config.weight_perturb_power
+    half_width = config.weight_perturb_half_width
     spread = config.weight_replace_range
     limit = config.weight_limit
     perturb = config.weight_perturb_prob
     uniform = rng.uniform
     for gene in genome.genes.values():
         if rng.random() < perturb:
-            weight = gene.weight + uniform(-power, power)
+            weight = gene.weight + uniform(-half_width, half_width)
         else:
             weight = uniform(-spread, spread)
         gene.weight = -limit if weight < -limit else limit if weight > limit else weight

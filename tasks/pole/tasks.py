@@ -27,9 +27,10 @@ from neuroyard.harness.core.compiled import CompiledNetwork
 from neuroyard.harness.core.errors import TaskError
 from neuroyard.harness.core.evolver import Evaluation
 from neuroyard.harness.core.network import Network
+from neuroyard.harness.core.options import Option
 from neuroyard.reference.published import protocol as protocol_table
 
-from ..base import SuccessCheck, Task, TaskSpec
+from ..base import Metric, SuccessCheck, Task, TaskSpec
 from ..registry import register
 from .episodes import FORCE_MAPPINGS, JIGGLE_WINDOW, EpisodeRules, balance, count_balanced
 from .generalization import generalization_starts, protocol
@@ -58,32 +59,110 @@ DAMPED_JIGGLE_WEIGHT = _DAMPED["jiggle_weight"]
 DAMPED_JIGGLE_NUMERATOR = _DAMPED["jiggle_numerator"]
 
 
-def _defaults(table: str) -> dict[str, Any]:
-    """Task settings from a protocol table (without its source and provenance fields)."""
+def _option(table: str, name: str, help: str, unit: str = "", **rule: Any) -> Option:
+    """A task setting whose default is published: value, source and provenance come from
+    the protocol table ``table`` of ``reference/figures/pole.toml``."""
     values = protocol_table("pole", table)
-    return {k: v for k, v in values.items() if k not in ("source", "provenance")}
+    source = f"{values['source']} ({values['provenance']})"
+    return Option(name, values[name], help, unit, source, **rule)
 
 
-COMMON_DEFAULTS = _defaults("task_defaults")
-SHORT_POLE_DEFAULTS = _defaults("task_defaults_two_poles")
-SINGLE_POLE_DEFAULTS = _defaults("task_defaults_one_pole")
-POSITIVE_SETTINGS = (
-    "tau",
-    "track_limit",
-    "failure_angle",
-    "max_force",
-    "cart_mass",
-    "gravity",
-    "long_pole_mass",
-    "long_pole_half_length",
-    "short_pole_mass",
-    "short_pole_half_length",
-    "scale_x",
-    "scale_velocity",
-    "scale_angle",
-    "scale_angular_velocity_1",
-    "scale_angular_velocity_2",
+POSITIVE = {"above": 0.0}
+COMMON_OPTIONS = (
+    _option("task_defaults", "tau", "integration time step", "s", **POSITIVE),
+    _option(
+        "task_defaults", "integrator", "integration method of the equations of motion",
+        choices=tuple(INTEGRATORS),
+    ),
+    _option("task_defaults", "substeps", "integration steps per network action", low=1),
+    _option(
+        "task_defaults", "start_angle",
+        "long pole angle at the start of every episode (must lie inside the failure angle)",
+        "rad",
+    ),
+    _option("task_defaults", "track_limit", "half-length of the track", "m", **POSITIVE),
+    _option(
+        "task_defaults", "force_mapping", "how the network output becomes the force",
+        choices=tuple(FORCE_MAPPINGS),
+    ),
+    _option("task_defaults", "max_force", "largest force on the cart", "N", **POSITIVE),
+    _option("task_defaults", "cart_mass", "mass of the cart", "kg", **POSITIVE),
+    _option("task_defaults", "gravity", "gravitational acceleration", "m/s^2", **POSITIVE),
+    _option("task_defaults", "cart_friction", "friction coefficient of cart on track", low=0.0),
+    _option("task_defaults", "pole_friction", "friction coefficient of each pole hinge", low=0.0),
+    _option("task_defaults", "long_pole_mass", "mass of the long pole", "kg", **POSITIVE),
+    _option(
+        "task_defaults", "long_pole_half_length", "half-length of the long pole", "m", **POSITIVE
+    ),
+    _option("task_defaults", "scale_x", "divisor of the cart position input", "m", **POSITIVE),
+    _option(
+        "task_defaults", "scale_velocity", "divisor of the cart velocity input", "m/s", **POSITIVE
+    ),
+    _option("task_defaults", "scale_angle", "divisor of the pole angle inputs", "rad", **POSITIVE),
+    _option(
+        "task_defaults", "scale_angular_velocity_1",
+        "divisor of the long pole angular velocity input", "rad/s", **POSITIVE,
+    ),
+    _option(
+        "task_defaults", "episode_steps", "control steps of one evaluation episode (its cap)",
+        low=1,
+    ),
+    _option(
+        "task_defaults", "success_steps", "control steps the success test must balance", low=1
+    ),
+)  # fmt: skip
+TWO_POLE_OPTIONS = (
+    _option("task_defaults_two_poles", "short_pole_mass", "mass of the short pole", "kg", **POSITIVE),
+    _option(
+        "task_defaults_two_poles", "short_pole_half_length", "half-length of the short pole",
+        "m", **POSITIVE,
+    ),
+    _option(
+        "task_defaults_two_poles", "scale_angular_velocity_2",
+        "divisor of the short pole angular velocity input", "rad/s", **POSITIVE,
+    ),
+    _option(
+        "task_defaults_two_poles", "failure_angle",
+        "a pole further from upright than this ends the episode", "rad", **POSITIVE,
+    ),
+)  # fmt: skip
+ONE_POLE_OPTIONS = (
+    _option(
+        "task_defaults_one_pole", "failure_angle",
+        "the pole further from upright than this ends the episode", "rad", **POSITIVE,
+    ),
+)  # fmt: skip
+DAMPED_OPTIONS = (
+    _option(
+        "damped_fitness", "episode_steps", "control steps of one evaluation episode (its cap)",
+        low=1,
+    ),
+    Option(
+        "damped_fitness", True, "fitness is the damped fitness instead of steps balanced",
+        source=GRUAU_1996,
+    ),
+    Option(
+        "generalization_test", True, "the success test also runs the 625-start test",
+        source=GRUAU_1996,
+    ),
+)  # fmt: skip
+
+
+GENERALIZATION = Metric(
+    "generalization",
+    "generalization score of the solution: of the 625 published starts, those from which it "
+    "balances the test length (Gruau et al. 1996)",
+    unit="starts of 625",
 )
+
+
+def _merged(*groups: tuple[Option, ...]) -> tuple[Option, ...]:
+    """Options of several groups in order; a later option replaces one of the same name."""
+    by_name: dict[str, Option] = {}
+    for group in groups:
+        for option in group:
+            by_name[option.name] = option
+    return tuple(by_name.values())
 
 
 # What each state variable is, for the spec's list of inputs (see physics.py for the signs).
@@ -131,15 +210,6 @@ class PoleBalancing(Task):
 
     def check_settings(self) -> None:
         s = self.settings
-        for key in POSITIVE_SETTINGS:
-            if key in s and not s[key] > 0.0:
-                raise TaskError(f"task {self.id}: setting {key!r} must be > 0, got {s[key]!r}")
-        for key in ("cart_friction", "pole_friction"):
-            if not s[key] >= 0.0:
-                raise TaskError(f"task {self.id}: setting {key!r} must be >= 0, got {s[key]!r}")
-        for key in ("substeps", "episode_steps", "success_steps"):
-            if s[key] < 1:
-                raise TaskError(f"task {self.id}: setting {key!r} must be >= 1, got {s[key]}")
         if not abs(s["start_angle"]) < s["failure_angle"]:
             raise TaskError(
                 f"task {self.id}: setting 'start_angle' {s['start_angle']} must lie inside "
@@ -150,11 +220,6 @@ class PoleBalancing(Task):
                 f"task {self.id}: the damped fitness needs a nonzero 'start_angle' "
                 "(a cart at rest with upright poles would make the jiggle sum 0)"
             )
-        for key, known in (("integrator", INTEGRATORS), ("force_mapping", FORCE_MAPPINGS)):
-            if s[key] not in known:
-                raise TaskError(
-                    f"task {self.id}: setting {key!r} is {s[key]!r} (known: {', '.join(known)})"
-                )
 
     def _physics(self) -> Physics:
         s = self.settings
@@ -311,6 +376,7 @@ class PoleBalancing(Task):
             output_rule=OUTPUT_RULES[self.settings["force_mapping"]].format(
                 f=self.settings["max_force"]
             ),
+            metrics=(GENERALIZATION,) if self.settings.get("generalization_test", False) else (),
         )
 
 
@@ -319,7 +385,7 @@ class SinglePoleMarkov(PoleBalancing):
     id = "pole1-markov-v1"
     n_poles = 1
     velocities = True
-    defaults = {**COMMON_DEFAULTS, **SINGLE_POLE_DEFAULTS}
+    options = _merged(COMMON_OPTIONS, ONE_POLE_OPTIONS)
 
 
 @register
@@ -327,7 +393,7 @@ class SinglePoleNonMarkov(PoleBalancing):
     id = "pole1-nonmarkov-v1"
     n_poles = 1
     velocities = False
-    defaults = {**COMMON_DEFAULTS, **SINGLE_POLE_DEFAULTS}
+    options = _merged(COMMON_OPTIONS, ONE_POLE_OPTIONS)
 
 
 @register
@@ -337,7 +403,7 @@ class DoublePoleMarkov(PoleBalancing):
     id = "pole2-markov-v1"
     n_poles = 2
     velocities = True
-    defaults = {**COMMON_DEFAULTS, **SHORT_POLE_DEFAULTS}
+    options = _merged(COMMON_OPTIONS, TWO_POLE_OPTIONS)
 
 
 @register
@@ -348,10 +414,4 @@ class DoublePoleNonMarkov(PoleBalancing):
     n_poles = 2
     velocities = False
     budget = 1_000_000
-    defaults = {
-        **COMMON_DEFAULTS,
-        **SHORT_POLE_DEFAULTS,
-        "episode_steps": _DAMPED["episode_steps"],
-        "damped_fitness": True,
-        "generalization_test": True,
-    }
+    options = _merged(COMMON_OPTIONS, TWO_POLE_OPTIONS, DAMPED_OPTIONS)

@@ -29,8 +29,9 @@ import pytest
 
 from neuroyard.harness.core.evolver_registry import EvolverSpec
 from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.harness.execution.supervisor import Supervisor
 from neuroyard.harness.records.store import ResultStore
-from neuroyard.harness.reports import report
+from neuroyard.harness.reports import renderers, report
 from neuroyard.reference.published import figures_for
 
 OUT = Path(__file__).resolve().parents[2] / "results" / "neat_xor"
@@ -81,7 +82,7 @@ def run_study() -> dict:
     load_before = os.getloadavg()[0]
     start = time.perf_counter()
     with ResultStore(store_path) as store:
-        execute(plan, store, workers=WORKERS, progress=False)
+        execute(plan, store, Supervisor(WORKERS), progress=False)
         wall = time.perf_counter() - start
         records = list(store.records(with_log=False))
     (row,) = report.build(records)
@@ -135,7 +136,7 @@ def run_study() -> dict:
         "report": row.to_json(),
     }
     (OUT / "summary.json").write_text(json.dumps(summary, indent=2, default=str) + "\n")
-    (OUT / "README.md").write_text(_markdown(summary, report.render([row], "markdown")))
+    (OUT / "README.md").write_text(_markdown(summary, renderers.render([row], "markdown")))
     return summary
 
 

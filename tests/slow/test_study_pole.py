@@ -23,6 +23,7 @@ import pytest
 
 from neuroyard.harness.core.evolver_registry import EvolverSpec
 from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.harness.execution.supervisor import Supervisor
 from neuroyard.harness.records.runs import RunRecord
 from neuroyard.harness.records.store import ResultStore
 from neuroyard.harness.reports.stats import GroupSummary, summarize
@@ -51,7 +52,7 @@ MEAN_TOLERANCE = 2.0  # issue 4 acceptance: mean evaluations <= 2 x the publishe
 # evaluations, 5 of them within 100,000; with the champion 7 of 14 within 100,000.
 DPNV_FREE_PARAMETERS: dict[str, Any] = {
     "weight_init_range": 1.0,
-    "weight_perturb_power": 1.0,
+    "weight_perturb_half_width": 1.0,
     "weight_replace_range": 1.0,
     "species_representative": "champion",
 }
@@ -101,7 +102,7 @@ def run_study(
                 + "\n"
             )
 
-        execute(plan, store, workers=WORKERS, progress=False, on_record=write_summary)
+        execute(plan, store, Supervisor(WORKERS), progress=False, on_record=write_summary)
         write_summary()
         records = study_records()
     summary = summarize(records)
