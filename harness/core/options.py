@@ -219,16 +219,17 @@ def distribute(
     out: dict[str, dict[str, Any]] = {owner: {} for owner in tables}
     for key, value in assignments:
         owner, sep, name = key.rpartition(":")
+        given = f"{flag} {key}={value}"
         if sep:
             if owner not in tables:
                 known = ", ".join(tables)
-                raise SettingError(f"{flag} {key}: {owner!r} is not in this campaign ({known})")
+                raise SettingError(f"{given}: {owner!r} is not in this campaign ({known})")
             out[owner][name] = value
             continue
         takers = [o for o, table in tables.items() if table is None or name in table]
         if not takers:
             known = ", ".join(tables)
-            raise SettingError(f"{flag} {key}: none of {known} has {name!r}")
+            raise SettingError(f"{given}: none of {known} has {name!r}")
         for owner in takers:
             out[owner][name] = value
     return out

@@ -79,7 +79,7 @@ class ReportRow:
             "evolver_settings": self.evolver_settings,
             "evolver_config": self.evolver_config,
         }
-        row.update({k: v for k, v in asdict(s).items() if k not in ("success_ci", "metrics")})
+        row.update({k: v for k, v in s.figures().items() if k != "success_ci"})
         row["metrics"] = [{**asdict(m), "mean": s.metrics.get(m.name)} for m in self.metrics]
         row["success_ci_low"], row["success_ci_high"] = s.success_ci
         row["published"] = [asdict(c) for c in self.comparisons]
@@ -156,6 +156,13 @@ def _comparisons(records: Sequence[RunRecord], s: GroupSummary) -> tuple[Compari
     return tuple(out)
 
 
+def summary_of(records: Sequence[RunRecord]) -> GroupSummary:
+    """The summary of one group of runs of one task, with the metrics the task declares."""
+    first = records[0]
+    metrics = declared_metrics(first.task, first.task_settings)
+    return summarize(records, [m.name for m in metrics])
+
+
 def build(records: Iterable[RunRecord]) -> list[ReportRow]:
     """Group records and summarise each group (stable order: evolver, task)."""
     groups: dict[tuple[str, str, str, str], list[RunRecord]] = {}
@@ -165,7 +172,7 @@ def build(records: Iterable[RunRecord]) -> list[ReportRow]:
     rows = []
     for (evolver, config_hash, task, _), group in sorted(groups.items()):
         metrics = declared_metrics(task, group[0].task_settings)
-        summary = summarize(group, [m.name for m in metrics])
+        summary = summary_of(group)
         rows.append(
             ReportRow(
                 evolver,

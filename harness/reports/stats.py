@@ -14,7 +14,8 @@ from __future__ import annotations
 import math
 import statistics
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import asdict, dataclass, field
+from typing import Any
 
 from scipy.stats import binomtest, fisher_exact, ttest_ind_from_stats
 
@@ -91,6 +92,13 @@ class GroupSummary:
     sd_connections: float | None
     mean_success_evaluations: float | None
     metrics: dict[str, float | None] = field(default_factory=dict)
+
+    def figures(self) -> dict[str, Any]:
+        """Every figure in one flat mapping (JSON values): the fields, with each task
+        metric as ``mean_<name>``, the name published figures use."""
+        flat = {k: v for k, v in asdict(self).items() if k != "metrics"}
+        flat.update({f"mean_{name}": value for name, value in self.metrics.items()})
+        return flat
 
 
 def summarize(records: Sequence[RunRecord], metrics: Sequence[str] = ()) -> GroupSummary:

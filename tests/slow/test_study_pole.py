@@ -15,7 +15,6 @@ The tolerance factors are the acceptance criteria of issue 4, not published numb
 from __future__ import annotations
 
 import json
-from dataclasses import asdict
 from pathlib import Path
 from typing import Any
 
@@ -26,7 +25,8 @@ from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execu
 from neuroyard.harness.execution.supervisor import Supervisor
 from neuroyard.harness.records.runs import RunRecord
 from neuroyard.harness.records.store import ResultStore
-from neuroyard.harness.reports.stats import GroupSummary, summarize
+from neuroyard.harness.reports.report import summary_of
+from neuroyard.harness.reports.stats import GroupSummary
 from neuroyard.reference.published import ReferenceFigure, figures_for
 from neuroyard.tasks.pole.generalization import protocol
 
@@ -105,7 +105,7 @@ def run_study(
         execute(plan, store, Supervisor(WORKERS), progress=False, on_record=write_summary)
         write_summary()
         records = study_records()
-    summary = summarize(records)
+    summary = summary_of(records)
     print(
         f"\n{name}: {summary.solved}/{summary.runs} solved, mean evals {summary.mean_evaluations}"
     )
@@ -124,7 +124,7 @@ def summary_document(
         "campaign_seed": SEED,
         "runs_planned": runs,
         "runs_finished": len(done),
-        "summary": asdict(summarize(done)) if done else None,
+        "summary": summary_of(done).figures() if done else None,
         "runs": [
             {
                 "run": r.run_index,
@@ -179,4 +179,4 @@ def test_study_double_pole_nonmarkov() -> None:
     assert summary.runs == 20
     assert summary.solved >= 18
     assert summary.mean_evaluations <= MEAN_TOLERANCE * figure.values["mean_evaluations"]
-    assert summary.mean_generalization >= protocol().pass_count
+    assert summary.metrics["generalization"] >= protocol().pass_count
