@@ -138,7 +138,10 @@ def test_evaluate_a_network_file(tmp_path, capsys):
         (["run", "--evolver", "nope", "--runs", "1"], "unknown evolver 'nope'"),
         (["run", "--runs", "zero"], "argument --runs: expected a whole number, got 'zero'"),
         (["run", "--runs", "0"], "argument --runs: must be at least 1"),
-        (["run", "--setting", "bits=x", "--task", "parity-v2"], "task parity-v2: setting 'bits' must be a whole number, got 'x'"),
+        (
+            ["run", "--setting", "bits=x", "--task", "parity-v2"],
+            "task parity-v2: setting 'bits' must be a whole number, got 'x'",
+        ),
         (
             ["run", "--param", "batch_size=0", "--evolver", "rwg"],
             "evolver rwg: option 'batch_size' must be >= 1, got 0",
@@ -173,7 +176,10 @@ def test_evaluate_a_network_file(tmp_path, capsys):
             ["report", "--store", "/nonexistent/x.db"],
             "results store /nonexistent/x.db: no such file",
         ),
-        (["report", "--format", "pdf"], "unknown report format 'pdf' (known: json, markdown, text)"),
+        (
+            ["report", "--format", "pdf"],
+            "unknown report format 'pdf' (known: json, markdown, text)",
+        ),
         (
             ["evaluate", "missing.json", "--task", "xor-v2"],
             "network file missing.json: cannot read it",
