@@ -114,3 +114,27 @@ def test_the_xor_study_report_tables_are_the_committed_ones(tmp_path) -> None:
     assert len(table_rows) >= 2  # the main row and the published figures
     for line in table_rows:
         assert line in committed, line
+
+
+def test_the_readme_states_the_committed_figures() -> None:
+    # the project README quotes the studies' own output; these are the figures it states
+    readme = (RESULTS.parent / "README.md").read_text()
+    xor = json.loads((RESULTS / "neat_xor/summary.json").read_text())["measured"]
+    pole = {
+        name: json.loads((RESULTS / f"pole/{name}.json").read_text())["summary"]
+        for name in ("spv", "dpv", "dpnv")
+    }
+    stated = [
+        f"XOR {xor['solved']}/100 solved, mean {xor['mean_evaluations']:,.0f} evaluations",
+        f"{xor['mean_hidden_nodes']:.2f} hidden nodes",
+        f"{xor['mean_connections']:.2f} enabled connections",
+        f"single pole with velocities {pole['spv']['solved']}/{pole['spv']['runs']}",
+        f"double pole with velocities {pole['dpv']['solved']}/{pole['dpv']['runs']}, mean "
+        f"{pole['dpv']['mean_evaluations']:,.0f} evaluations",
+        f"{pole['dpnv']['solved']}/{pole['dpnv']['runs']} solved, mean "
+        f"{pole['dpnv']['mean_evaluations']:,.0f} evaluations",
+        f"generalization {pole['dpnv']['mean_generalization']:.1f} of 625",
+    ]
+    flat = " ".join(readme.split())  # the README wraps its lines
+    for text in stated:
+        assert text in flat, text
