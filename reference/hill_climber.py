@@ -28,9 +28,11 @@ from .fixed_topology import FixedTopology
 
 
 class HillClimber:
-    """Keep one parent; each generation try ``offspring`` Gaussian mutants (step ``sigma``);
-    a mutant at least as fit as the parent replaces it. Options: see :attr:`options`; a bad
-    one raises a ``ValueError`` naming it."""
+    """A hill climber on a fixed topology: one parent and Gaussian mutants of it each generation.
+
+    Each generation tries ``offspring`` mutants (step ``sigma``); a mutant at least as fit as
+    the parent replaces it. Options: see :attr:`options`; a bad one raises a ``ValueError``
+    naming it."""
 
     options = OptionTable(
         "evolver hill-climber",

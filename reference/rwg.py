@@ -23,7 +23,9 @@ from .fixed_topology import FixedTopology
 
 
 class RandomWeightGuessing:
-    """Options: see :attr:`options`; a bad one raises a ``ValueError`` naming it."""
+    """Random weight guessing on a fixed topology: independent uniform weights, nothing learned.
+
+    Options: see :attr:`options`; a bad one raises a ``ValueError`` naming it."""
 
     options = OptionTable(
         "evolver rwg",
