@@ -1,9 +1,9 @@
 """Published reference figures, read from the TOML files in ``reference/figures/``.
 
 Every number that comes from a paper lives in those files, with its citation, the protocol
-it was measured under and a provenance tag (the tags of ``LITERATURE.md``). Nothing else
-in neuroyard hard-codes a paper's number; the report and the reproduction tests read them
-from here.
+it was measured under and a provenance tag (reference/SOURCES.md: provenance tags).
+Nothing else in neuroyard hard-codes a paper's number; the report and the reproduction
+tests read them from here.
 
 File layout (one file per task family)::
 
@@ -36,7 +36,8 @@ from typing import Any
 
 from neuroyard.harness.core.errors import NeuroyardError
 
-# Tags of LITERATURE.md; only the first group may gate a pass/fail check.
+# Provenance tags (reference/SOURCES.md: provenance tags); only the first group may gate
+# a pass/fail check.
 GATE_PROVENANCE = ("VERIFIED", "VERIFIED-QUOTE", "SECONDARY-ACADEMIC", "SECONDARY-NOTES")
 INFO_PROVENANCE = ("MEMORY-high", "MEMORY-medium", "MEMORY-low")
 PROVENANCE = GATE_PROVENANCE + INFO_PROVENANCE

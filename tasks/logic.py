@@ -35,7 +35,8 @@ from .registry import register, retire
 
 NEAT_2002 = (
     "Stanley, K. O. & Miikkulainen, R. (2002). Evolving neural networks through augmenting "
-    "topologies. Evolutionary Computation 10(2):99-127, sec. 4.2"
+    "topologies. Evolutionary Computation 10(2):99-127, sec. 4.2 "
+    "(reference/SOURCES.md: stanley2002; XOR)"
 )
 
 

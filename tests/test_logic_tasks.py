@@ -2,7 +2,7 @@
 
 XOR fitness and success rule: Stanley & Miikkulainen 2002, sec. 4.2 (fitness
 (4 - sum |output - target|)^2 over the 4 patterns; success = every output on the correct
-side of 0.5, which LITERATURE.md sec. 1.2 marks as from memory).
+side of 0.5, marked as from memory in reference/SOURCES.md: stanley2002; XOR).
 """
 
 from __future__ import annotations

@@ -1,7 +1,8 @@
 """NEAT configuration: the paper's values as defaults, provenance of each, errors naming the key.
 
 Expected defaults are the parameter settings of Stanley & Miikkulainen (2002), sec. 4.1,
-as listed with their provenance in shared LITERATURE.md sec. 1.1.
+as listed with their provenance in our bibliography
+(reference/SOURCES.md: stanley2002; NEAT settings).
 """
 
 from __future__ import annotations
@@ -37,7 +38,7 @@ def test_every_config_field_is_declared_with_a_source():
 
 def test_defaults_are_the_papers_settings():
     c = NeatEvolver().config
-    # Stanley & Miikkulainen 2002, sec. 4.1 (LITERATURE.md 1.1)
+    # Stanley & Miikkulainen 2002, sec. 4.1 (reference/SOURCES.md: stanley2002; NEAT settings)
     assert (c.population_size, c.c1, c.c2, c.c3, c.compat_threshold) == (150, 1.0, 1.0, 0.4, 3.0)
     assert (c.stagnation_generations, c.champion_copy_above, c.normalise_below) == (15, 5, 20)
     assert (c.weight_mutation_prob, c.weight_perturb_prob) == (0.8, 0.9)
@@ -45,7 +46,8 @@ def test_defaults_are_the_papers_settings():
     assert (c.interspecies_mating_rate, c.add_node_prob, c.add_link_prob) == (0.001, 0.03, 0.05)
     assert (c.initial_topology, c.initial_hidden, c.recurrent) == ("minimal", 0, False)
     assert c.growth and c.speciation and c.crossover
-    # not in the paper: must be tagged as such (LITERATURE.md 1.1, survival fraction row)
+    # not in the paper: must be tagged as such (survival fraction row of
+    # reference/SOURCES.md: stanley2002; NEAT settings)
     assert "common practice" in option_table()["survival_fraction"].source
 
 

@@ -2,7 +2,8 @@
 
 Behaviour expected from Stanley & Miikkulainen (2002): sec. 4.1 (population, speciation,
 champion copies), sec. 5 (ablations: no growth, no speciation, no crossover, initial random
-topology), as listed in shared LITERATURE.md sec. 1.1 and 1.5.
+topology), as listed in our bibliography
+(reference/SOURCES.md: stanley2002; NEAT settings; ablations).
 """
 
 from __future__ import annotations

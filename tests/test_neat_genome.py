@@ -1,7 +1,7 @@
 """NEAT genome operations on their own, against the rules of Stanley & Miikkulainen (2002).
 
 Sources of the expected behaviour (paper = Stanley & Miikkulainen 2002, Evolutionary
-Computation 10(2); rules as listed in shared LITERATURE.md sec. 1.1):
+Computation 10(2); rules as listed in reference/SOURCES.md: stanley2002; NEAT settings):
 - historical markings: the same structural innovation within a generation gets the same
   innovation number (paper, section on historical markings);
 - compatibility distance delta = c1*E/N + c2*D/N + c3*W (paper, eq. 1), N = 1 below 20 genes;
@@ -90,7 +90,8 @@ def test_distance_with_stop_at_agrees_on_compatibility():
 def test_distance_of_identical_structure_is_mean_weight_difference():
     a = genome([(0, 0, 3, 1.0, True), (1, 1, 3, 2.0, True), (2, 2, 3, 0.0, False)])
     b = genome([(0, 0, 3, 0.0, True), (1, 1, 3, 2.0, True), (2, 2, 3, 2.0, True)])
-    # Matching genes only: W = (1 + 0 + 2) / 3, disabled genes included (LITERATURE.md 1.1)
+    # Matching genes only: W = (1 + 0 + 2) / 3, disabled genes included
+    # (reference/SOURCES.md: stanley2002; NEAT settings)
     assert distance(a, b, 1.0, 1.0, 0.4, 20) == pytest.approx(0.4 * 1.0)
     assert distance(a, a, 1.0, 1.0, 0.4, 20) == 0.0
 

@@ -97,7 +97,8 @@ def test_settings_are_validated_with_clear_errors() -> None:
 
 
 def test_specs_interface_and_recorded_settings() -> None:
-    expected = {  # inputs, needs memory (LITERATURE.md sec. 2.5 and sec. 3)
+    # inputs, needs memory (reference/SOURCES.md: gomez1999, barto1983; inputs; single pole)
+    expected = {
         "pole1-markov-v1": (4, False),
         "pole1-nonmarkov-v1": (2, True),
         "pole2-markov-v1": (6, False),
@@ -130,7 +131,8 @@ def test_figure_protocols_name_real_settings() -> None:
 
 
 def test_generalization_starts_are_the_published_grid() -> None:
-    """Gruau, Whitley & Pyeatt 1996 / Stanley & Miikkulainen 2002 (LITERATURE.md sec. 2.8):
+    """Gruau, Whitley & Pyeatt 1996 / Stanley & Miikkulainen 2002
+    (reference/SOURCES.md: gruau1996, stanley2002; generalization test):
     each of x, x_dot, theta_1, theta_dot_1 at fractions 0.05, 0.25, 0.5, 0.75, 0.95 of
     its range, all 5^4 combinations, short pole upright at rest."""
     path = resources.files("neuroyard.reference") / "figures" / "pole.toml"
@@ -142,7 +144,8 @@ def test_generalization_starts_are_the_published_grid() -> None:
         table["theta_1_range_degrees"] * math.pi / 180.0,
         table["theta_dot_1_range_degrees_per_s"] * math.pi / 180.0,
     ]
-    # the radian ranges quoted beside the degrees in LITERATURE.md sec. 2.8
+    # the radian ranges given beside the degrees in
+    # (reference/SOURCES.md: gruau1996; generalization test)
     assert half[2] == pytest.approx(0.0628, abs=5e-5)
     assert half[3] == pytest.approx(0.15, abs=5e-4)
     axis_values = [[r * (2.0 * f - 1.0) for f in table["fractions"]] for r in half]
@@ -190,7 +193,7 @@ def test_dpnv_success_needs_generalization_and_counts_its_episodes() -> None:
 
 def test_damped_fitness_follows_gruau_et_al() -> None:
     """F = 0.1 t/1000 + 0.9 * 0.75 / sum over the last 100 steps of |x|+|x_dot|+|th1|+|th1_dot|
-    (Gruau, Whitley & Pyeatt 1996; LITERATURE.md sec. 2.7, from memory)."""
+    (Gruau, Whitley & Pyeatt 1996, from memory; reference/SOURCES.md: gruau1996; damped fitness)."""
     task = make("pole2-nonmarkov-v1")
     gains = lqr_gains(make("pole2-markov-v1"), [1, 1, 100, 1, 100, 1])
     network = difference_network(task, gains)

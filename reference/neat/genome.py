@@ -78,7 +78,9 @@ def distance(
     normalise_below: int,
     stop_at: float = math.inf,
 ) -> float:
-    """Compatibility distance delta = c1*E/N + c2*D/N + c3*W (the paper's eq. 1; LITERATURE.md 1.1).
+    """Compatibility distance delta = c1*E/N + c2*D/N + c3*W (the paper's eq. 1).
+
+    The paper's rules (reference/SOURCES.md: stanley2002; NEAT settings).
 
     E: excess genes (innovation beyond the other genome's highest), D: disjoint genes (the
     other non-matching ones), W: mean absolute weight difference of matching genes,
@@ -132,7 +134,9 @@ def crossover(
     disable_inherited_prob: float,
     keep_disabled: bool = False,
 ) -> Genome:
-    """Offspring of two parents aligned by innovation number (paper; LITERATURE.md 1.1).
+    """Offspring of two parents aligned by innovation number.
+
+    The paper's rules (reference/SOURCES.md: stanley2002; NEAT settings).
 
     Matching genes are inherited from either parent at random; disjoint and excess genes
     from the fitter parent only, so the child has the fitter parent's structure. A gene

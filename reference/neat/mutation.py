@@ -1,4 +1,6 @@
-"""NEAT mutations: weight change, add-node, add-link (paper sec. 4.1 rates; LITERATURE.md 1.1).
+"""NEAT mutations: weight change, add-node, add-link (paper sec. 4.1 rates).
+
+The paper's rates and rules (reference/SOURCES.md: stanley2002; NEAT settings).
 
 All operate in place on a :class:`~.genome.Genome` and draw from the run's ``random.Random``.
 """
@@ -70,9 +72,10 @@ def add_node(
 ) -> bool:
     """Split a random enabled gene a->b into a->new (weight 1) and new->b (the old weight).
 
-    The split gene is disabled (paper; LITERATURE.md 1.1 'Add-node mechanics'). Genes
-    leaving node ``skip_bias`` (the bias node, when given) are not split. The gene is
-    drawn uniformly among the candidates. Returns False when there is none.
+    The split gene is disabled (paper; row 'Add-node mechanics' of
+    reference/SOURCES.md: stanley2002; NEAT settings). Genes leaving node ``skip_bias``
+    (the bias node, when given) are not split. The gene is drawn uniformly among the
+    candidates. Returns False when there is none.
     """
     candidates = [g for g in genome.genes.values() if g.enabled and g.source != skip_bias]
     if not candidates:

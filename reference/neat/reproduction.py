@@ -1,11 +1,12 @@
 """Reproduction: offspring per species by shared fitness, then breeding inside each species.
 
-Explicit fitness sharing (paper; LITERATURE.md 1.1): a genome's adjusted fitness is its
-fitness divided by the size of its species, so a species' summed adjusted fitness is its
-mean fitness, and offspring are allotted in proportion to it. Species that stagnated get
-none. Within a species the lowest performers are removed (``survival_fraction``), the
-champion of a species with more than ``champion_copy_above`` members is copied unchanged,
-and the rest of the offspring come from mutation alone or from crossover plus mutation.
+Explicit fitness sharing (paper; reference/SOURCES.md: stanley2002; NEAT settings): a
+genome's adjusted fitness is its fitness divided by the size of its species, so a
+species' summed adjusted fitness is its mean fitness, and offspring are allotted in
+proportion to it. Species that stagnated get none. Within a species the lowest
+performers are removed (``survival_fraction``), the champion of a species with more than
+``champion_copy_above`` members is copied unchanged, and the rest of the offspring come
+from mutation alone or from crossover plus mutation.
 """
 
 from __future__ import annotations

@@ -1,4 +1,6 @@
-"""Speciation: grouping genomes by compatibility distance (paper; LITERATURE.md 1.1).
+"""Speciation: grouping genomes by compatibility distance.
+
+The paper's rules (reference/SOURCES.md: stanley2002; NEAT settings).
 
 Each species is represented by a member of the previous generation: a random one (the
 paper) or its champion (``species_representative``). A genome joins

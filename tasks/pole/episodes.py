@@ -8,8 +8,8 @@ control steps completed inside the limits is the number of steps balanced.
 Failure: ``|x| > track_limit`` or any ``|theta_i| > failure_angle`` (a NaN state also
 fails). For the damped fitness the kernel also returns the sum, over the last
 ``JIGGLE_WINDOW`` balanced steps, of ``|x| + |x_dot| + |theta_1| + |theta_dot_1|`` in raw
-units (Gruau, Whitley & Pyeatt 1996; LITERATURE.md sec. 2.7, from memory), or 0 when
-fewer steps were balanced.
+units (Gruau, Whitley & Pyeatt 1996, from memory;
+reference/SOURCES.md: gruau1996; damped fitness), or 0 when fewer steps were balanced.
 """
 
 from __future__ import annotations

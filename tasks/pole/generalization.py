@@ -1,9 +1,10 @@
 """The 625-start generalization test of the double pole without velocities.
 
 Gruau, Whitley & Pyeatt 1996, used unchanged by Gomez & Miikkulainen 1999 and
-Stanley & Miikkulainen 2002 (LITERATURE.md sec. 2.8). The published constants (grid
-fractions, ranges, episode length, pass count) are read from the ``[generalization]``
-table of ``reference/figures/pole.toml``.
+Stanley & Miikkulainen 2002
+(reference/SOURCES.md: gruau1996, gomez1999, stanley2002; generalization test). The
+published constants (grid fractions, ranges, episode length, pass count) are read from
+the ``[generalization]`` table of ``reference/figures/pole.toml``.
 """
 
 from __future__ import annotations

@@ -8,8 +8,9 @@ A positive force pushes the cart towards +x; a pole with theta > 0 leans towards
 For N = 1 and no friction this is the layout and sign convention of the classic
 Barto, Sutton & Anderson 1983 cart-pole (and of gymnasium's CartPole internal state).
 
-Equations of motion (Wieland 1991, as restated in LITERATURE.md sec. 2.1; poles are
-uniform rods hinged at one end, ``l_i`` is the **half** length, ``g = -gravity``)::
+Equations of motion (Wieland 1991, as restated in reference/SOURCES.md: wieland1991; equations)
+of poles that are uniform rods hinged at one end (``l_i`` is the **half** length,
+``g = -gravity``)::
 
     x_dd      = (F - mu_c sgn(x_d) + sum_i Ft_i) / (M + sum_i mt_i)
     theta_dd_i = -(3 / (4 l_i)) (x_dd cos th_i + g sin th_i + mu_p th_d_i / (m_i l_i))
@@ -32,8 +33,8 @@ from neuroyard.harness.core.errors import TaskError
 
 WIELAND_1991 = (
     "Wieland, A. P. (1991). Evolving neural network controllers for unstable systems. "
-    "IJCNN-91 Seattle, vol. II, 667-673 (N-pole cart equations; restated in "
-    "LITERATURE.md sec. 2.1)"
+    "IJCNN-91 Seattle, vol. II, 667-673 (N-pole cart equations; "
+    "reference/SOURCES.md: wieland1991; equations)"
 )
 
 # Integrator codes used inside the kernels.
@@ -67,8 +68,9 @@ def make_physics(
     tau: float = 0.01,
     integrator: str = "rk4",
 ) -> Physics:
-    """Validated :class:`Physics`. Defaults: the double-pole constants of LITERATURE.md
-    sec. 2.2 (Wieland 1991 / Gomez & Miikkulainen 1999; from memory, MEMORY-high)."""
+    """Validated :class:`Physics`. Defaults: the double-pole constants of Wieland 1991 /
+    Gomez & Miikkulainen 1999 (from memory, MEMORY-high;
+    reference/SOURCES.md: wieland1991, gomez1999; constants)."""
     if len(masses) != len(half_lengths) or not masses:
         raise TaskError(
             f"pole physics: need one mass and one half length per pole, got "
@@ -110,7 +112,8 @@ def pack_constants(phys: Physics) -> np.ndarray:
     """Physics constants in one flat array, per-pole terms precomputed.
 
     ``[M, g, mu_c, mu_p, m_1..m_N, m_i l_i.., 1/(m_i l_i).., 3/(4 l_i)..]`` with
-    g = -gravity (the sign convention of Wieland's equations, LITERATURE.md sec. 2.1).
+    g = -gravity (the sign convention of Wieland's equations;
+    reference/SOURCES.md: wieland1991; equations).
     One array instead of several: every array handed through the inner loop costs
     numba reference-count updates, which measured slower than the physics itself.
     """

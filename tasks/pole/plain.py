@@ -2,8 +2,8 @@
 
 Written separately from :mod:`.physics` and :mod:`.episodes` (plain floats and the
 ``math`` module, no numpy, no numba) so tests can check the kernels against it and the
-benchmarks can measure what numba buys. Equations: Wieland 1991 as restated in
-LITERATURE.md sec. 2.1 (see :mod:`.physics`).
+benchmarks can measure what numba buys. Equations: Wieland 1991 as restated in our
+bibliography (reference/SOURCES.md: wieland1991; equations); see :mod:`.physics`.
 """
 
 from __future__ import annotations

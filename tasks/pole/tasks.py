@@ -11,7 +11,9 @@ Every episode starts with all state variables 0 except the long pole at ``start_
 Success: the network balances ``success_steps`` (100,000) steps from that start; for
 DPNV it must also pass the 625-start generalization test (:mod:`.generalization`).
 
-Defaults and their sources (LITERATURE.md sec. 2-3). Where the sources differ, the
+Defaults and their sources: two poles
+(reference/SOURCES.md: wieland1991, gomez1999, stanley2002; constants; inputs; success),
+one pole (reference/SOURCES.md: barto1983; single pole). Where the sources differ, the
 choice is marked ``from memory`` and explained beside the setting below.
 """
 
@@ -39,17 +41,19 @@ from .replay import replay
 
 NEAT_2002 = (
     "Stanley, K. O. & Miikkulainen, R. (2002). Evolving neural networks through augmenting "
-    "topologies. Evolutionary Computation 10(2):99-127, sec. 4.4"
+    "topologies. Evolutionary Computation 10(2):99-127, sec. 4.4 "
+    "(reference/SOURCES.md: stanley2002; DPV table; DPNV table)"
 )
 GRUAU_1996 = (
     "Gruau, F., Whitley, D. & Pyeatt, L. (1996). A comparison between cellular encoding and "
     "direct encoding for genetic neural networks. Genetic Programming 1996 (damped fitness, "
-    "625-start generalization test; LITERATURE.md sec. 2.7-2.8)"
+    "625-start generalization test; "
+    "reference/SOURCES.md: gruau1996; damped fitness; generalization test)"
 )
 BARTO_1983 = (
     "Barto, A. G., Sutton, R. S. & Anderson, C. W. (1983). Neuronlike adaptive elements that "
     "can solve difficult learning control problems. IEEE SMC 13(5) (single pole; "
-    "LITERATURE.md sec. 3)"
+    "reference/SOURCES.md: barto1983; single pole)"
 )
 
 # Published constants (values, sources and provenance in reference/figures/pole.toml).

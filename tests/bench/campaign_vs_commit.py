@@ -27,6 +27,9 @@ imports ``neuroyard.harness``, ``neuroyard.tasks`` and ``neuroyard.reference`` f
 script stops unless that is its own source. One warm-up campaign per side (not counted)
 builds numba's kernel cache of each install; then campaigns alternate current, baseline,
 current, baseline, ... for N pairs. Medians and ratios are measured side by side in one run.
+The JSON that ``--write`` writes names files relative to the repository
+(``COMMIT:path`` for a side installed from a commit), never by where they lie on this
+machine.
 
 Exit status: 0 when the median ratio is within the target, 1 when it is not, 2 when a step
 fails (one line on stderr saying which), 130 when interrupted (Ctrl-C or SIGTERM). On an
@@ -225,6 +228,31 @@ def install_commit(commit: str, folder: Path) -> Path:
     return site
 
 
+def recorded_import(side: Side, harness: Path, commit: str | None) -> str:
+    """Where ``side`` imports ``neuroyard.harness`` from, as the JSON records it: relative to
+    the side's source folder, which has the repository's layout (``harness/__init__.py``),
+    and for a side installed from a commit prefixed with ``COMMIT:`` as in git's notation
+    for a file of a commit. No machine-local path (the repository's location, the temporary
+    install folder) goes into the record."""
+    relative = harness.resolve().relative_to(side.source.resolve()).as_posix()
+    return relative if commit is None else f"{commit}:{relative}"
+
+
+def recorded_command(argv: Sequence[str]) -> list[str]:
+    """The command line as the JSON records it: the script's file name, and every argument
+    that is an absolute path inside the repository made relative to it (an absolute path
+    elsewhere is reduced to its file name)."""
+    out = [Path(argv[0]).name]
+    for arg in argv[1:]:
+        path = Path(arg)
+        if path.is_absolute():
+            resolved = path.resolve()
+            inside = resolved.is_relative_to(REPO.resolve())
+            arg = resolved.relative_to(REPO.resolve()).as_posix() if inside else path.name
+        out.append(arg)
+    return out
+
+
 def prepare(side: Side, cwd: Path) -> tuple[Side, Path]:
     """``side`` with its campaign, and where it imports ``neuroyard.harness`` from, after
     checking that it imports every neuroyard package from ``side.source``."""
@@ -291,7 +319,7 @@ def compare(args: argparse.Namespace, tmp: Path) -> dict[str, Any]:
             side = Side(name, environment(site), site / "neuroyard")
         side, harness = prepare(side, tmp)
         sides.append(side)
-        imports[name] = str(harness)
+        imports[name] = recorded_import(side, harness, described[name].get("commit"))
         print(f"{name:8}  imports neuroyard.harness from {harness}")
         print(f"{'':8}  campaign {', '.join(f'{t} x{n}' for t, n in side.tasks)}", flush=True)
 
@@ -299,7 +327,7 @@ def compare(args: argparse.Namespace, tmp: Path) -> dict[str, Any]:
     ratios = [c / b for c, b in zip(times["current"], times["baseline"], strict=True)]
     return {
         "measured": "wall seconds of one campaign (three neuroyard run calls), warm-up excluded",
-        "command": [Path(sys.argv[0]).name, *sys.argv[1:]],
+        "command": recorded_command(sys.argv),
         "campaign": {
             "evolver": EVOLVER,
             "seed": SEED,

@@ -112,7 +112,8 @@ def xor_networks(count: int = XOR_BATCH, seed: int = 0) -> list[Network]:
     Start: inputs 0, 1 and bias 2 connected to output 3 (neat_sigmoid), weights U(-2, 2).
     Each added hidden node splits a random enabled connection the NEAT way (the old link is
     disabled, the new incoming link gets weight 1, the outgoing one the old weight: Stanley &
-    Miikkulainen 2002, sec. 3.1; LITERATURE.md sec. 1.1 tags it SECONDARY-NOTES) and gets
+    Miikkulainen 2002, sec. 3.1, tagged SECONDARY-NOTES in
+    reference/SOURCES.md: stanley2002; NEAT settings) and gets
     one extra incoming link from another input or the bias half the time.
     """
     rng = np.random.default_rng(seed)
