@@ -7,8 +7,8 @@ Run with:
 
 (defaults: 3 repeats, 2 workers). A standalone script, not a pytest test.
 
-What is measured: the wall seconds of one campaign, three ``python -m neuroyard.harness.cli.main
-run`` calls in sequence into one fresh store, all with the reference NEAT evolver, campaign
+What is measured: the wall seconds of one campaign, three ``neuroyard run`` calls (the
+console script's entry point of that side) in sequence into one fresh store, all with the reference NEAT evolver, campaign
 seed 1, ``--workers W`` and ``--quiet``: XOR 100 runs (the highest ``xor-vN`` id of that
 side), single pole with velocities 20 runs (``pole1-markov-v1``), double pole with
 velocities 50 runs (``pole2-markov-v1``). The time includes process start, the loading of
@@ -127,9 +127,18 @@ def git(*args: str) -> str:
     return _run(["git", "-C", str(REPO), *args], f"git {' '.join(args)}").strip()
 
 
+# Runs the ``neuroyard`` console script's entry point of the side that comes first on the
+# path (the baseline's install through PYTHONPATH, else the working tree), wherever that
+# version keeps its command line.
+ENTRY = (
+    "import sys; from importlib.metadata import entry_points; "
+    "sys.exit(entry_points(group='console_scripts')['neuroyard'].load()())"
+)
+
+
 def cli(side: Side, *args: str, cwd: Path) -> str:
-    """Stdout of ``python -m neuroyard.harness.cli.main ARGS`` run as ``side`` in ``cwd``."""
-    command = [sys.executable, "-m", "neuroyard.harness.cli.main", *args]
+    """Stdout of ``neuroyard ARGS`` run as ``side`` in ``cwd``."""
+    command = [sys.executable, "-c", ENTRY, *args]
     return _run(command, f"{side.name} side: neuroyard {' '.join(args)}", env=side.env, cwd=cwd)
 
 
