@@ -20,8 +20,10 @@ File layout (one file per task family)::
 Besides figures (results), a file may hold named tables of published protocol constants
 (equations' constants, start states, test grids) that task code reads with :func:`protocol`.
 
-``protocol`` keys are ``task.<setting>`` or ``evolver.<config key>``; a measured result is
-comparable with the figure only when every such key has the same value in the run.
+``protocol`` keys are ``task.<setting>``, ``evolver.<config key>`` or ``run.budget``; a
+measured result is comparable with the figure only when every such key has the same value
+in the run's effective settings. A ``population`` value also states the protocol setting
+``evolver.population_size`` (:data:`IMPLIED_PROTOCOL`).
 """
 
 from __future__ import annotations
@@ -61,6 +63,11 @@ METRICS = (
 )
 
 
+# A figure value that states a setting of the experiment: metric -> protocol key.
+IMPLIED_PROTOCOL = {"population": "evolver.population_size"}
+PROTOCOL_SCOPES = ("task", "evolver", "run")
+
+
 @dataclass(frozen=True)
 class ReferenceFigure:
     """A set of published values for one method on one task, under one protocol."""
@@ -83,20 +90,39 @@ class ReferenceFigure:
     def may_gate(self) -> bool:
         return self.provenance in GATE_PROVENANCE
 
-    def mismatches(
-        self, task_settings: Mapping[str, Any], evolver_config: Mapping[str, Any]
-    ) -> list[str]:
-        """Protocol keys on which a run differs from the figure's protocol (empty = comparable).
+    @property
+    def full_protocol(self) -> dict[str, Any]:
+        """Every setting the figure was measured under: its ``protocol``, plus the settings
+        that a figure of the experiment's own size states as a value (a ``population``
+        figure was measured at that ``evolver.population_size``)."""
+        implied = {
+            key: self.values[metric]
+            for metric, key in IMPLIED_PROTOCOL.items()
+            if metric in self.values
+        }
+        return {**implied, **self.protocol}
 
-        A key the run does not record (a task setting or evolver option it lacks) counts as
-        a mismatch: like must be compared with like.
+    def mismatches(
+        self,
+        task_settings: Mapping[str, Any],
+        evolver_config: Mapping[str, Any],
+        run_settings: Mapping[str, Any] | None = None,
+    ) -> list[str]:
+        """Protocol settings on which a run differs from the figure's (empty = comparable).
+
+        Keys are ``task.<setting>`` (the run's effective task settings), ``evolver.<option>``
+        (its effective evolver configuration) and ``run.<name>`` (``run_settings``: the
+        effective ``budget``). A setting the run does not record counts as a mismatch:
+        like must be compared with like.
         """
+        scopes = {"task": task_settings, "evolver": evolver_config, "run": run_settings or {}}
         out = []
-        for key, expected in self.protocol.items():
+        for key, expected in self.full_protocol.items():
             scope, _, name = key.partition(".")
-            source = task_settings if scope == "task" else evolver_config
-            actual = source.get(name)
-            if actual is None or not _same(actual, expected):
+            actual = scopes[scope].get(name)
+            if actual is None:
+                out.append(f"{key} not recorded (published: {expected!r})")
+            elif not _same(actual, expected):
                 out.append(f"{key}={actual!r} (published: {expected!r})")
         return out
 
@@ -119,6 +145,12 @@ def _parse(doc: Mapping[str, Any], where: str) -> list[ReferenceFigure]:
         unknown = set(item["values"]) - set(METRICS)
         if unknown:
             raise NeuroyardError(f"{label}: unknown metrics {sorted(unknown)}")
+        scopes = {key.partition(".")[0] for key in item.get("protocol", {})}
+        if not scopes <= set(PROTOCOL_SCOPES):
+            bad = sorted(scopes - set(PROTOCOL_SCOPES))
+            raise NeuroyardError(
+                f"{label}: protocol keys must start with {', '.join(PROTOCOL_SCOPES)}: {bad}"
+            )
         out.append(
             ReferenceFigure(
                 task=item["task"],

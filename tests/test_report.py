@@ -172,3 +172,24 @@ def test_report_tests_measured_against_published_where_the_paper_allows():
         [record(0, True, 3000, population=300), record(1, True, 4000, population=300)]
     )
     assert all(c.p_value is None for c in other[0].comparisons)
+
+
+def test_a_population_figure_is_comparable_only_at_its_own_population():
+    # Stanley & Miikkulainen 2002 sec. 4.1 (reference/figures/logic.toml): population 150
+    # on XOR; a run at 50 is not comparable with it, and the row says which setting differs
+    rows = report.build([record(0, True, 3000, population=50)])
+    population = [c for c in rows[0].comparisons if c.metric == "population"]
+    assert population and not any(c.comparable for c in population)
+    assert "evolver.population_size=50 (published: 150.0)" in population[0].mismatches
+    at_150 = report.build([record(0, True, 3000, population=150)])
+    assert all(c.comparable for c in at_150[0].comparisons if c.metric == "population")
+
+
+def test_a_figure_under_a_stated_budget_needs_that_budget():
+    from neuroyard.reference.published import ReferenceFigure
+
+    figure = ReferenceFigure("xor-v2", "NEAT", "neat", "a test figure (not published)",
+                             "VERIFIED", {"failures": 0}, {"run.budget": 5000})  # fmt: skip
+    assert figure.mismatches({}, {}, {"budget": 5000}) == []
+    assert figure.mismatches({}, {}, {"budget": 10_000}) == ["run.budget=10000 (published: 5000)"]
+    assert figure.mismatches({}, {}) == ["run.budget not recorded (published: 5000)"]

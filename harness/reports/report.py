@@ -128,7 +128,13 @@ def _comparisons(records: Sequence[RunRecord], s: GroupSummary) -> tuple[Compari
     for fig in figures_for(first.task):
         if fig.compare_with != first.evolver:
             continue
-        mismatches = tuple(fig.mismatches(first.task_settings, first.evolver_settings))
+        mismatches = tuple(
+            fig.mismatches(
+                first.task_settings,
+                first.evolver_settings or first.config,
+                {"budget": first.budget},
+            )
+        )
         for metric, published in fig.values.items():
             measured = _measured(metric, s, first.evolver_settings)
             ratio = (
