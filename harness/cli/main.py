@@ -17,7 +17,7 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any, NoReturn
 
-from neuroyard.harness.cli import listing, replay
+from neuroyard.harness.cli import compare_command, listing, replay
 from neuroyard.harness.core import jsonsafe
 from neuroyard.harness.core.batch import compile_network
 from neuroyard.harness.core.errors import NeuroyardError
@@ -73,6 +73,17 @@ def _number(kind: type = int, minimum: float = 0, zero_is_none: bool = False):
 
 
 _positive, _seed = _number(minimum=1), _number()
+
+
+def _level(text: str) -> float:
+    """An argparse type: a significance level, a number strictly between 0 and 1."""
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
+    if not 0 < value < 1:
+        raise argparse.ArgumentTypeError(f"must lie strictly between 0 and 1, got {text}")
+    return value
 
 
 def _assignment(text: str) -> tuple[str, Any]:
@@ -171,6 +182,7 @@ def build_parser() -> argparse.ArgumentParser:
     ev.add_argument("--setting", type=_assignment, action="append", default=[], metavar="KEY=VALUE")
 
     replay.add_parser(sub, _positive)
+    compare_command.add_parser(sub, _level)
     return p
 
 
@@ -267,6 +279,7 @@ COMMANDS = {
     "export": _cmd_export,
     "evaluate": _cmd_evaluate,
     "replay": replay.command,
+    "compare": compare_command.command,
 }
 
 

@@ -1,0 +1,84 @@
+"""How a :class:`~.compare.Comparison` is written: text, Markdown and JSON.
+
+Text lines stay within 120 columns: each task has a table of figures and tests, and its
+verdicts below it, one per line.
+"""
+
+from __future__ import annotations
+
+import textwrap
+
+from tabulate import tabulate
+
+from neuroyard.harness.core import jsonsafe
+from neuroyard.harness.reports.compare import Comparison, MetricRow
+
+NOTES = (
+    "Figures: success rate over all runs (a run that broke counts as not solved); the others "
+    "are the median [interquartile range] over solved runs. Evaluations to solve are tested "
+    "with every unsolved run ranked worst (censored at the budget). A12: the chance that a "
+    "run of A has the larger value, ties counted half (0.5: no effect; for evaluations and "
+    "size, above 0.5 favours B). p: two-sided, adjusted with Holm's correction over every "
+    "test of this comparison. Runs needed: runs per side for a test at the same level to "
+    "find the observed effect with 80% power (Noether's formula; Cohen's h for success "
+    "rates)."
+)
+
+
+def comparison_text(comparison: Comparison, fmt: str = "text") -> str:
+    """The comparison as aligned text tables (``fmt`` "text") or GitHub Markdown."""
+    table_format = "github" if fmt == "markdown" else "simple"
+    heading = "### " if fmt == "markdown" else ""
+    bullet = "- " if fmt == "markdown" else "  "
+    lines = [f"A: {comparison.a}", f"B: {comparison.b}", f"level: {comparison.alpha:g}"]
+    if fmt == "markdown":
+        lines = [bullet + line for line in lines]
+    for task in comparison.tasks:
+        settings = ", ".join(f"{k}={v}" for k, v in sorted(task.task_settings.items()))
+        lines += ["", f"{heading}{task.task} ({settings or 'no settings'}): {task.runs} runs"]
+        for note in task.notes:
+            lines.append(f"{bullet}note: {note}")
+        if not task.rows:
+            continue
+        table = [
+            [row.metric, row.a, row.b, _effect(row), _p(row.p_holm), row.runs_needed or "-"]
+            for row in task.rows
+        ]
+        head = ["figure", "A", "B", "A12 / diff", "p (Holm)", "runs needed"]
+        text = tabulate(table, head, tablefmt=table_format, disable_numparse=True)
+        lines += ["", *text.splitlines(), ""]
+        lines += [f"{bullet}{row.metric}: {row.verdict}" for row in task.rows]
+    if comparison.notes:
+        lines.append("")
+        lines += [f"{bullet}note: {note}" for note in comparison.notes]
+    lines += ["", NOTES]
+    return "\n".join(_wrapped(lines))
+
+
+def comparison_json(comparison: Comparison) -> str:
+    return jsonsafe.dumps(comparison.to_json(), indent=2)
+
+
+def _effect(row: MetricRow) -> str:
+    effect = row.result.effect
+    if effect is None:
+        return "-"
+    return f"{effect:+.2f}" if row.result.test == "Fisher exact" else f"{effect:.2f}"
+
+
+def _p(p: float | None) -> str:
+    if p is None:
+        return "not run"
+    return f"{p:.2g}" if p >= 0.001 else "< 0.001"
+
+
+def _wrapped(lines: list[str], width: int = 120) -> list[str]:
+    """Prose lines longer than ``width`` broken at spaces (tables are narrower already)."""
+    out = []
+    for line in lines:
+        if len(line) <= width:
+            out.append(line)
+            continue
+        indent = len(line) - len(line.lstrip())
+        out += textwrap.wrap(line, width, subsequent_indent=" " * (indent + 2))
+    return out
