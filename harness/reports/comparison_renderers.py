@@ -11,7 +11,9 @@ import textwrap
 from tabulate import tabulate
 
 from neuroyard.harness.core import jsonsafe
+from neuroyard.harness.core.errors import TaskError
 from neuroyard.harness.reports.compare import Comparison, MetricRow
+from neuroyard.tasks.registry import task_class
 
 NOTES = (
     "Figures: success rate over all runs (a run that broke counts as not solved); the others "
@@ -34,8 +36,8 @@ def comparison_text(comparison: Comparison, fmt: str = "text") -> str:
     if fmt == "markdown":
         lines = [bullet + line for line in lines]
     for task in comparison.tasks:
-        settings = ", ".join(f"{k}={v}" for k, v in sorted(task.task_settings.items()))
-        lines += ["", f"{heading}{task.task} ({settings or 'no settings'}): {task.runs} runs"]
+        settings = _settings_text(task.task, task.task_settings)
+        lines += ["", f"{heading}{task.task} ({settings}): {task.runs} runs"]
         for note in task.notes:
             lines.append(f"{bullet}note: {note}")
         if not task.rows:
@@ -53,6 +55,16 @@ def comparison_text(comparison: Comparison, fmt: str = "text") -> str:
         lines += [f"{bullet}note: {note}" for note in comparison.notes]
     lines += ["", NOTES]
     return "\n".join(_wrapped(lines))
+
+
+def _settings_text(task_id: str, settings: dict) -> str:
+    """The settings that differ from the task's defaults, or "default settings"."""
+    try:
+        defaults = task_class(task_id).option_table().defaults()
+    except TaskError:  # a task not installed here: every setting
+        defaults = {}
+    changed = {k: v for k, v in sorted(settings.items()) if k not in defaults or defaults[k] != v}
+    return ", ".join(f"{k}={v}" for k, v in changed.items()) or "default settings"
 
 
 def comparison_json(comparison: Comparison) -> str:
