@@ -158,7 +158,7 @@ def build_parser() -> argparse.ArgumentParser:
     rp = sub.add_parser("report", help="summarise the runs in a store")
     rp.add_argument("--store", type=Path, default=DEFAULT_PATH)
     rp.add_argument(
-        "--format", default="text", help="text, markdown, json or an installed renderer"
+        "--format", default="text", help="text, markdown, json, html or an installed renderer"
     )
     rp.add_argument(
         "-o", "--output", type=Path, metavar="FILE", help="write the report to FILE, not stdout"
@@ -225,7 +225,7 @@ def _cmd_report(args: argparse.Namespace) -> None:
     if output is not None and output.resolve() == args.store.resolve():
         raise NeuroyardError(f"report output {output}: is the results store, not overwritten")
     with ResultStore(args.store, write=False) as store:
-        rows = report.build(store.records(with_log=False))
+        rows = report.build(store.records(with_log=renderers.needs_logs(args.format)))
     text = renderers.render(rows, args.format)
     if output is None:
         print(text)

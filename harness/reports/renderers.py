@@ -3,9 +3,10 @@
 A renderer turns report rows (:func:`.report.build`) into one document: a function
 ``(rows) -> str``. Built in: ``text`` (tables that fit 120 columns) and ``markdown``
 (GitHub tables), both laid out from :func:`.document.document`; ``json`` (a list of rows,
-strict JSON). Register another with :func:`register_renderer`, or from another package
-through the entry-point group ``neuroyard.renderers`` (the target is the function);
-``neuroyard report --format NAME`` then finds it.
+strict JSON); ``html`` (a self-contained page with plots, :mod:`.html`). Register another
+with :func:`register_renderer`, or from another package through the entry-point group
+``neuroyard.renderers`` (the target is the function); ``neuroyard report --format NAME``
+then finds it.
 """
 
 from __future__ import annotations
@@ -18,6 +19,7 @@ from tabulate import MIN_PADDING, tabulate
 
 from neuroyard.harness.core import jsonsafe
 from neuroyard.harness.core.errors import NeuroyardError
+from neuroyard.harness.reports import html
 from neuroyard.harness.reports.document import SettingsGroup, Table, document
 from neuroyard.harness.reports.report import ReportRow
 
@@ -26,14 +28,26 @@ Renderer = Callable[[Sequence[ReportRow]], str]
 _RENDERERS: dict[str, Renderer] = {}
 
 
-def register_renderer(name: str) -> Callable[[Renderer], Renderer]:
-    """Decorator: make a renderer available under ``name``."""
+_WITH_LOG: set[str] = set()
+
+
+def register_renderer(name: str, with_log: bool = False) -> Callable[[Renderer], Renderer]:
+    """Decorator: make a renderer available under ``name``. ``with_log``: the renderer
+    reads the generation logs of the rows' records (:attr:`ReportRow.records`), so the
+    records must be read from the store with them."""
 
     def add(fn: Renderer) -> Renderer:
         _RENDERERS[name] = fn
+        if with_log:
+            _WITH_LOG.add(name)
         return fn
 
     return add
+
+
+def needs_logs(fmt: str) -> bool:
+    """Whether renderer ``fmt`` reads the generation logs of the runs."""
+    return fmt in _WITH_LOG
 
 
 def renderer_names() -> list[str]:
@@ -191,3 +205,6 @@ def render_markdown(rows: Sequence[ReportRow]) -> str:
 @register_renderer("json")
 def render_json(rows: Sequence[ReportRow]) -> str:
     return jsonsafe.dumps([r.to_json() for r in rows], indent=2)
+
+
+render_html = register_renderer("html", with_log=True)(html.render_html)
