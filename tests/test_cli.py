@@ -178,7 +178,7 @@ def test_evaluate_a_network_file(tmp_path, capsys):
         ),
         (
             ["report", "--format", "pdf"],
-            "unknown report format 'pdf' (known: json, markdown, text)",
+            "unknown report format 'pdf' (known: html, json, markdown, text)",
         ),
         (
             ["evaluate", "missing.json", "--task", "xor-v2"],

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import re
 
 import pytest
 from scipy.stats import binomtest, ttest_ind
@@ -87,9 +88,14 @@ def test_figure_under_another_protocol_is_not_comparable():
     means = [c for c in rows[0].comparisons if c.metric == "mean_evaluations"]
     assert means and not means[0].comparable and means[0].ratio is not None
     assert "evolver.population_size=300 (published: 150)" in means[0].mismatches
-    # the text report prints no ratio for a figure that is not comparable
-    line = next(x for x in renderers.render(rows, "text").splitlines() if "mean_evaluations" in x)
-    assert "no: evolver.population_size=300" in line
+    # the text report prints no ratio for a figure that is not comparable, and its verdict
+    # cites the footnote that names the setting that differs
+    lines = renderers.render(rows, "text").splitlines()
+    line = next(x for x in lines if "mean_evaluations" in x)
+    verdict = re.search(r" no (\[\d+\])$", line.rstrip())
+    assert verdict and " 1.5" not in line and " 0.6" not in line
+    (note,) = [x for x in lines if x.strip().startswith(verdict.group(1))]
+    assert "not comparable: measured under evolver.population_size=300 (published: 150)" in note
 
 
 def test_report_lists_the_options_given_apart_from_the_evolver_defaults():
@@ -101,12 +107,14 @@ def test_report_lists_the_options_given_apart_from_the_evolver_defaults():
         evolver_settings={"population_size": 300, "c3": 0.4},
     )
     rows = report.build([record(1, True, 3000), given])
-    lines = renderers.render(rows, "markdown").splitlines()
-    assert "- evolver neat [c0ffee]: the evolver's defaults: population_size=150" in lines
+    text = renderers.render(rows, "markdown")
     assert (
-        "- evolver neat [0ddba1]: set for these runs: population_size=300; "
-        "the evolver's defaults: c3=0.4"
-    ) in lines
+        "- evolver neat [c0ffee]:\n  - the evolver's defaults:\n    - population_size = 150\n"
+    ) in text
+    assert (
+        "- evolver neat [0ddba1]:\n  - set for these runs:\n    - population_size = 300\n"
+        "  - the evolver's defaults:\n    - c3 = 0.4\n"
+    ) in text
     assert {r.config_hash: r.evolver_config for r in rows} == {
         "c0ffee000000": {},
         "0ddba1100000": {"population_size": 300},

@@ -169,7 +169,10 @@ def build_parser() -> argparse.ArgumentParser:
     rp = sub.add_parser("report", help="summarise the runs in a store")
     rp.add_argument("--store", type=Path, default=DEFAULT_PATH)
     rp.add_argument(
-        "--format", default="text", help="text, markdown, json or an installed renderer"
+        "--format", default="text", help="text, markdown, json, html or an installed renderer"
+    )
+    rp.add_argument(
+        "-o", "--output", type=Path, metavar="FILE", help="write the report to FILE, not stdout"
     )
 
     e = sub.add_parser("export", help="write every run record, one JSON object per line")
@@ -230,9 +233,21 @@ def _cmd_run(args: argparse.Namespace) -> None:
 
 def _cmd_report(args: argparse.Namespace) -> None:
     renderers.check_format(args.format)  # before the store is opened
+    output: Path | None = args.output
+    if output is not None and output.resolve() == args.store.resolve():
+        raise NeuroyardError(f"report output {output}: is the results store, not overwritten")
     with ResultStore(args.store, write=False) as store:
-        rows = report.build(store.records(with_log=False))
-    print(renderers.render(rows, args.format))
+        rows = report.build(store.records(with_log=renderers.needs_logs(args.format)))
+    text = renderers.render(rows, args.format)
+    if output is None:
+        print(text)
+        return
+    try:
+        output.write_text(text + "\n", encoding="utf-8")
+    except OSError as exc:
+        raise NeuroyardError(
+            f"report output {output}: cannot write it ({exc.strerror or exc})"
+        ) from None
 
 
 def _cmd_export(args: argparse.Namespace) -> None:

@@ -1,23 +1,26 @@
 """Report renderers, found by name in one registry.
 
 A renderer turns report rows (:func:`.report.build`) into one document: a function
-``(rows) -> str``. Built in: ``text`` (aligned tables), ``markdown`` (GitHub tables) and
-``json`` (a list of rows, strict JSON). Register another with :func:`register_renderer`,
-or from another package through the entry-point group ``neuroyard.renderers`` (the target
-is the function); ``neuroyard report --format NAME`` then finds it.
+``(rows) -> str``. Built in: ``text`` (tables that fit 120 columns) and ``markdown``
+(GitHub tables), both laid out from :func:`.document.document`; ``json`` (a list of rows,
+strict JSON); ``html`` (a self-contained page with plots, :mod:`.html`). Register another
+with :func:`register_renderer`, or from another package through the entry-point group
+``neuroyard.renderers`` (the target is the function); ``neuroyard report --format NAME``
+then finds it.
 """
 
 from __future__ import annotations
 
-import math
-from collections.abc import Callable, Mapping, Sequence
+import textwrap
+from collections.abc import Callable, Sequence
 from importlib.metadata import entry_points
-from typing import Any
 
-from tabulate import tabulate
+from tabulate import MIN_PADDING, tabulate
 
 from neuroyard.harness.core import jsonsafe
 from neuroyard.harness.core.errors import NeuroyardError
+from neuroyard.harness.reports import html
+from neuroyard.harness.reports.document import SettingsGroup, Table, document
 from neuroyard.harness.reports.report import ReportRow
 
 ENTRY_POINT_GROUP = "neuroyard.renderers"
@@ -25,14 +28,26 @@ Renderer = Callable[[Sequence[ReportRow]], str]
 _RENDERERS: dict[str, Renderer] = {}
 
 
-def register_renderer(name: str) -> Callable[[Renderer], Renderer]:
-    """Decorator: make a renderer available under ``name``."""
+_WITH_LOG: set[str] = set()
+
+
+def register_renderer(name: str, with_log: bool = False) -> Callable[[Renderer], Renderer]:
+    """Decorator: make a renderer available under ``name``. ``with_log``: the renderer
+    reads the generation logs of the rows' records (:attr:`ReportRow.records`), so the
+    records must be read from the store with them."""
 
     def add(fn: Renderer) -> Renderer:
         _RENDERERS[name] = fn
+        if with_log:
+            _WITH_LOG.add(name)
         return fn
 
     return add
+
+
+def needs_logs(fmt: str) -> bool:
+    """Whether renderer ``fmt`` reads the generation logs of the runs."""
+    return fmt in _WITH_LOG
 
 
 def renderer_names() -> list[str]:
@@ -56,192 +71,125 @@ def render(rows: Sequence[ReportRow], fmt: str = "text") -> str:
     return _RENDERERS[fmt](rows)
 
 
-def _num(x: float | None, digits: int = 1) -> str:
-    if x is None:
-        return "-"
-    if math.isinf(x):
-        return "inf"
-    return f"{x:,.{digits}f}" if digits else f"{x:,.0f}"
+WIDTH = 120  # columns of the text report
+_MIN_WRAP = 8  # a text column is wrapped to no fewer columns than this
+_GAP = 2  # spaces between the columns of a text table (tabulate's "simple" format)
 
 
-def _main_table(rows: Sequence[ReportRow], fmt: str) -> str:
-    labels = {(r.evolver, r.config_hash) for r in rows}
-    names = {r.evolver for r in rows}
-    multi = len(labels) > len(names)  # same evolver under several configurations
-    table = []
-    for r in rows:
-        s = r.summary
-        name = f"{r.evolver} [{r.config_hash[:6]}]" if multi else r.evolver
-        table.append(
-            [
-                name,
-                r.task,
-                s.runs,
-                s.solved,
-                s.failed,
-                f"{s.success_rate:.0%} ({s.success_ci[0]:.0%}-{s.success_ci[1]:.0%})",
-                _num(s.mean_evaluations, 0),
-                _num(s.median_evaluations, 0),
-                _num(s.ert, 0),
-                _num(s.mean_generations),
-                _num(s.mean_hidden_nodes, 2),
-                _num(s.mean_connections, 2),
-            ]
-        )
-    head = [
-        "evolver",
-        "task",
-        "runs",
-        "solved",
-        "failed",
-        "success (95% CI)",
-        "mean evals",
-        "median evals",
-        "ERT",
-        "mean gens",
-        "hidden",
-        "connections",
-    ]
-    return tabulate(table, head, tablefmt=_TABLE_FORMAT[fmt])
+def _width(text: str) -> int:
+    return max((len(line) for line in text.splitlines()), default=0)
 
 
-def _published_table(rows: Sequence[ReportRow], fmt: str) -> str:
-    table = []
-    for r in rows:
-        for c in r.comparisons:
-            table.append(
-                [
-                    r.evolver,
-                    r.task,
-                    c.method,
-                    c.metric,
-                    _num(c.measured, 2),
-                    _num(c.published, 2),
-                    _num(c.ratio, 2) if c.comparable else "-",
-                    f"{c.p_value:.2g} ({c.test})" if c.p_value is not None else "-",
-                    c.provenance + (" (from memory)" if c.from_memory else ""),
-                    "yes" if c.comparable else "no: " + "; ".join(c.mismatches),
-                    c.source,
-                ]
-            )
-    if not table:
-        return ""
-    head = [
-        "evolver",
-        "task",
-        "method",
-        "metric",
-        "measured",
-        "published",
-        "ratio",
-        "p (test)",
-        "provenance",
-        "comparable",
-        "source",
-    ]
-    return tabulate(table, head, tablefmt=_TABLE_FORMAT[fmt])
+def _fit(table: Table) -> tuple[list[int | None], list[int | None]]:
+    """(cell widths, header widths) at which to wrap each column so that the text table
+    fits :data:`WIDTH` (None: as wide as it needs). The widest text column is narrowed
+    first; numbers are never wrapped. A column is as wide as its widest cell and at least
+    its header plus tabulate's padding of headers."""
+    cells = [max((_width(row[i]) for row in table.body), default=0) for i in range(len(table.head))]
+    heads = [_width(h) + MIN_PADDING for h in table.head]
+    natural = [max(c, h) for c, h in zip(cells, heads, strict=True)]
+    fitted = list(natural)
+    text = [i for i, numeric in enumerate(table.numeric) if not numeric]
+    while text and sum(fitted) + _GAP * (len(fitted) - 1) > WIDTH:
+        widest = max(text, key=lambda i: fitted[i])
+        if fitted[widest] <= _MIN_WRAP:
+            break
+        fitted[widest] -= 1
+    return (
+        [w if w < c else None for w, c in zip(fitted, cells, strict=True)],
+        [w - MIN_PADDING if w < h else None for w, h in zip(fitted, heads, strict=True)],
+    )
 
 
-def _failures_table(rows: Sequence[ReportRow], fmt: str) -> str:
-    table = [
-        [r.evolver, r.task, index, generations, reason]
-        for r in rows
-        for index, generations, reason in r.failures
-    ]
-    if not table:
-        return ""
-    head = ["evolver", "task", "run", "generations", "reason"]
-    return tabulate(table, head, tablefmt=_TABLE_FORMAT[fmt])
+def _markdown_cell(text: str) -> str:
+    return text.replace("|", "\\|").replace("\n", " ")
 
 
-def _settings_lines(rows: Sequence[ReportRow], fmt: str) -> list[str]:
-    """Every distinct task and evolver setting the rows were measured under.
-
-    Evolver options given for the runs are listed apart from the evolver's defaults, so a
-    reader sees at once which settings were chosen away from them.
-    """
-    bullet = "- " if fmt == "markdown" else "  "
-    seen: dict[str, str] = {}
-    for r in rows:
-        seen.setdefault(f"task {r.task}: {_joined(r.task_settings)}", "")
-        given = {k: r.evolver_settings.get(k, v) for k, v in r.evolver_config.items()}
-        defaults = {k: v for k, v in r.evolver_settings.items() if k not in given}
-        parts = [f"set for these runs: {_joined(given)}"] if given else []
-        if defaults:
-            parts.append(f"the evolver's defaults: {_joined(defaults)}")
-        elif not given:
-            parts.append("the evolver's defaults (it reports no settings)")
-        seen.setdefault(f"evolver {r.evolver} [{r.config_hash[:6]}]: {'; '.join(parts)}", "")
-    return [bullet + line for line in seen]
-
-
-def _joined(settings: Mapping[str, Any]) -> str:
-    return ", ".join(f"{k}={_setting(v)}" for k, v in sorted(settings.items())) or "none"
-
-
-def _setting(value: Any) -> str:
-    return f"{value:.6g}" if isinstance(value, float) else str(value)
-
-
-NOTES = (
-    "Evaluations, generations and sizes are over solved runs; success rate and ERT count "
-    "every run (ERT = all evaluations / solved runs). failed: runs that broke (the evolver "
-    'raised, hung, died or broke the contract), listed with their reasons under "Failed '
-    'runs" when there are any, counted as not solved; the other unsolved runs spent '
-    "their budget. p: two-sided p-value that the "
-    "measured and the published runs have the same mean (Welch's t-test) or the same "
-    "success rate (Fisher's exact test), where the paper gives the run "
-    "count and spread the test needs."
-)
+def _table(table: Table, fmt: str) -> list[str]:
+    """The lines of one table: caption, table, its footnotes."""
+    align = ["right" if numeric else "left" for numeric in table.numeric]
+    if fmt == "markdown":
+        head = [_markdown_cell(h) for h in table.head]
+        body = [[_markdown_cell(c) for c in row] for row in table.body]
+        out = [f"#### {_markdown_cell(table.caption)}", ""] if table.caption else []
+        out.append(tabulate(body, head, "github", disable_numparse=True, colalign=align))
+        if table.notes:
+            out += ["", *(f"- [{n}] {_markdown_cell(text)}" for n, text in table.notes)]
+        return out
+    widths, head_widths = _fit(table)
+    out = [*_wrap(table.caption), ""] if table.caption else []
+    grid = tabulate(
+        table.body,
+        table.head,
+        "simple",
+        disable_numparse=True,
+        colalign=align,
+        maxcolwidths=widths,
+        maxheadercolwidths=head_widths,
+    )
+    out += grid.splitlines()
+    if table.notes:
+        out.append("")
+        for n, text in table.notes:
+            out += _wrap(f"[{n}] {text}", indent="  ", hang="      ")
+    return out
 
 
-def _metrics_table(rows: Sequence[ReportRow], fmt: str) -> str:
-    """The task-declared metrics of every row: mean over solved runs, unit, direction."""
-    table = [
-        [
-            r.evolver,
-            r.task,
-            m.name,
-            _num(r.summary.metrics.get(m.name), 1),
-            m.unit,
-            f"{m.better} is better",
-            m.description,
-        ]
-        for r in rows
-        for m in r.metrics
-    ]
-    if not table:
-        return ""
-    head = ["evolver", "task", "metric", "mean (solved runs)", "unit", "", "what it measures"]
-    return tabulate(table, head, tablefmt=_TABLE_FORMAT[fmt])
+def _wrap(text: str, indent: str = "", hang: str | None = None) -> list[str]:
+    """A line of prose wrapped to :data:`WIDTH` (continuation lines indented by ``hang``)."""
+    return textwrap.wrap(
+        text,
+        WIDTH,
+        initial_indent=indent,
+        subsequent_indent=indent if hang is None else hang,
+        break_on_hyphens=False,
+    ) or [indent.rstrip()]
 
 
-_TABLE_FORMAT = {"text": "simple", "markdown": "github"}
+def _heading(title: str, fmt: str) -> list[str]:
+    return ["", f"### {title}" if fmt == "markdown" else title, ""]
+
+
+def _settings_lines(groups: Sequence[SettingsGroup], fmt: str) -> list[str]:
+    """One line per setting, indented under its task or evolver (and its part)."""
+    out: list[str] = []
+    for group in groups:
+        out += _item(group.heading + ":", 0, fmt)
+        for caption, pairs in group.parts:
+            level = 1
+            if caption:
+                out += _item(caption + (":" if pairs else ""), 1, fmt)
+                level = 2
+            for name, value in pairs:
+                out += _item(f"{name} = {value}", level, fmt)
+    return out
+
+
+def _item(text: str, level: int, fmt: str) -> list[str]:
+    if fmt == "markdown":
+        return ["  " * level + "- " + _markdown_cell(text)]
+    indent = "  " * (level + 1)
+    return _wrap(text, indent=indent, hang=indent + "    ")
 
 
 def _document(rows: Sequence[ReportRow], fmt: str) -> str:
     """The text or Markdown report: tables, then settings and notes."""
     if not rows:
         return "no runs in the store"
-    parts = [_main_table(rows, fmt)]
-    sections = (
-        ("Task metrics (means over solved runs)", _metrics_table(rows, fmt)),
-        (
-            "Failed runs (the run broke; an unsolved run spent its budget and is not listed)",
-            _failures_table(rows, fmt),
-        ),
-        (
-            "Published figures beside measured values (ratio = measured / published)",
-            _published_table(rows, fmt),
-        ),
-    )
-    for title, table in sections:
-        if table:
-            parts += ["", f"### {title}" if fmt == "markdown" else title, "", table]
-    title = "Settings the runs were measured under"
-    parts += ["", f"### {title}" if fmt == "markdown" else title + ":", *_settings_lines(rows, fmt)]
-    parts += ["", NOTES]
-    return "\n".join(parts)
+    doc = document(rows)
+    parts: list[str] = []
+    for section in (doc.summary, doc.metrics, doc.failures, doc.published):
+        if section is None:
+            continue
+        parts += _heading(section.title, fmt)
+        for k, table in enumerate(section.tables):
+            parts += ([""] if k else []) + _table(table, fmt)
+    parts += _heading("Settings the runs were measured under", fmt)
+    parts += _settings_lines(doc.settings, fmt)
+    parts += _heading("Notes", fmt)
+    for note in doc.notes:
+        parts += [f"- {_markdown_cell(note)}"] if fmt == "markdown" else _wrap(note, "- ", "  ")
+    return "\n".join(parts[1:])  # no blank line before the first heading
 
 
 @register_renderer("text")
@@ -257,3 +205,6 @@ def render_markdown(rows: Sequence[ReportRow]) -> str:
 @register_renderer("json")
 def render_json(rows: Sequence[ReportRow]) -> str:
     return jsonsafe.dumps([r.to_json() for r in rows], indent=2)
+
+
+render_html = register_renderer("html", with_log=True)(html.render_html)

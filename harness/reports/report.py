@@ -68,6 +68,9 @@ class ReportRow:
     failures: tuple[tuple[int, int, str], ...] = ()
     # the task's declared metrics; their means are in ``summary.metrics``
     metrics: tuple[Metric, ...] = ()
+    # the group's run records (with their generation logs when they were read with them),
+    # for renderers that draw the runs; not part of ``to_json()``
+    records: tuple[RunRecord, ...] = field(default=(), repr=False, compare=False)
 
     def to_json(self) -> dict[str, Any]:
         s = self.summary
@@ -195,6 +198,7 @@ def build(records: Iterable[RunRecord]) -> list[ReportRow]:
                     if r.status == FAILED
                 ),
                 metrics,
+                tuple(group),
             )
         )
     return rows

@@ -1,0 +1,406 @@
+"""What a report says, whatever its format: tables of formatted figures, numbered
+footnotes, the settings and the notes (:func:`document`).
+
+The text, Markdown and HTML renderers lay out the same :class:`Document`, so every format
+shows the same figures formatted the same way. Numbers: thousands separators everywhere,
+and the same digits for the same kind of figure (:func:`figure`): evaluations (and ERT)
+whole, generations to one decimal, network sizes to two, counts whole, task metrics to
+one, ratios to two, rates as whole percentages. A value that does not exist is ``—``; where
+the reason is not obvious (an ERT with no solved run) a footnote says why. Nothing user
+supplied is marked up here: each renderer escapes for its own format.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import re
+from collections.abc import Hashable, Mapping, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+from neuroyard.harness.reports.report import Comparison, ReportRow
+
+DASH = "—"  # a value that does not exist
+
+# Digits after the decimal point of each kind of figure: the figure's name without its
+# mean_/sd_/median_/worst_ prefix. Any other figure (a task's own metric) gets METRIC_DIGITS.
+_DIGITS = {
+    "evaluations": 0,
+    "success_evaluations": 0,
+    "ert": 0,
+    "generations": 1,
+    "hidden_nodes": 2,
+    "connections": 2,
+    "runs": 0,
+    "solved": 0,
+    "failed": 0,
+    "failures": 0,
+    "population": 0,
+}
+METRIC_DIGITS = 1
+_PREFIX = re.compile(r"^(mean|sd|median|worst)_")
+
+
+def figure(name: str, value: float | None) -> str:
+    """``value`` formatted as a figure of kind ``name`` (``mean_evaluations``,
+    ``success_rate``, ``generalization``, ...); :data:`DASH` for None."""
+    if value is None:
+        return DASH
+    if name == "success_rate":
+        return f"{value:.0%}"
+    digits = _DIGITS.get(_PREFIX.sub("", name), METRIC_DIGITS)
+    return f"{value:,.{digits}f}"
+
+
+def count(value: int) -> str:
+    """A count (runs, a run's index, generations done), with thousands separators."""
+    return f"{value:,d}"
+
+
+def ratio(value: float | None) -> str:
+    """A ratio of two figures, two decimals; :data:`DASH` for None."""
+    return DASH if value is None else f"{value:,.2f}"
+
+
+def p_value(value: float | None, test: str) -> str:
+    """A p-value to two significant digits with the test's name; :data:`DASH` for None."""
+    return DASH if value is None else f"{value:.2g} ({test})"
+
+
+@dataclass(frozen=True)
+class Table:
+    """One table: header, rows of formatted cells, which columns hold numbers (aligned
+    right), an optional caption (the group it shows) and the footnotes its cells cite, as
+    (number, text)."""
+
+    head: tuple[str, ...]
+    body: tuple[tuple[str, ...], ...]
+    numeric: tuple[bool, ...]
+    caption: str = ""
+    notes: tuple[tuple[int, str], ...] = ()
+
+
+@dataclass(frozen=True)
+class Section:
+    """A titled part of the report: one or more tables (one per group where a table for all
+    groups would be too wide)."""
+
+    title: str
+    tables: tuple[Table, ...]
+
+
+@dataclass(frozen=True)
+class SettingsGroup:
+    """The settings one task or evolver configuration was measured under: a heading and
+    parts (a caption such as "set for these runs" and its (name, value) pairs)."""
+
+    heading: str
+    parts: tuple[tuple[str, tuple[tuple[str, str], ...]], ...]
+
+
+@dataclass(frozen=True)
+class Document:
+    """The whole report. ``published``, ``metrics`` and ``failures`` are None when no row
+    has any; ``labels`` names each row as the tables do (evolver, task)."""
+
+    summary: Section
+    metrics: Section | None
+    failures: Section | None
+    published: Section | None
+    settings: tuple[SettingsGroup, ...]
+    notes: tuple[str, ...]
+    labels: tuple[tuple[str, str], ...] = ()
+
+
+class Footnotes:
+    """The numbered footnotes of one document: the same text keeps its number in every
+    table that cites it."""
+
+    def __init__(self) -> None:
+        self._numbers: dict[str, int] = {}
+
+    def cite(self, text: str, used: dict[int, str]) -> str:
+        """The marker (``[n]``) of ``text``; records the note in ``used`` (the table's)."""
+        number = self._numbers.setdefault(text, len(self._numbers) + 1)
+        used[number] = text
+        return f"[{number}]"
+
+
+def short_hash(value: Any) -> str:
+    """Six hex digits identifying a JSON-able value (a task's settings)."""
+    text = json.dumps(value, sort_keys=True, default=str)
+    return hashlib.sha256(text.encode()).hexdigest()[:6]
+
+
+def labels(keys: Sequence[tuple[str, Hashable]], hashes: Mapping[Hashable, str]) -> list[str]:
+    """A label per (name, identity) key: the name, followed by ``[hash]`` (from ``hashes``)
+    only when the same name comes with more than one identity among ``keys``."""
+    identities: dict[str, set[Hashable]] = {}
+    for name, identity in keys:
+        identities.setdefault(name, set()).add(identity)
+    return [
+        f"{name} [{hashes[identity]}]" if len(identities[name]) > 1 else name
+        for name, identity in keys
+    ]
+
+
+def row_labels(rows: Sequence[ReportRow]) -> list[tuple[str, str]]:
+    """(evolver label, task label) of each row: the evolver with its configuration hash
+    when several configurations of it are reported, the task with a hash of its settings
+    when it was run under several."""
+    evolvers = labels(
+        [(r.evolver, r.config_hash) for r in rows], {r.config_hash: r.config_hash[:6] for r in rows}
+    )
+    settings = [json.dumps(r.task_settings, sort_keys=True, default=str) for r in rows]
+    tasks = labels(
+        [(r.task, s) for r, s in zip(rows, settings, strict=True)],
+        {s: short_hash(r.task_settings) for r, s in zip(rows, settings, strict=True)},
+    )
+    return list(zip(evolvers, tasks, strict=True))
+
+
+NO_SOLVED_ERT = (
+    "no run solved, so there is no finite expected running time (ERT = all evaluations "
+    "spent / solved runs)"
+)
+NO_SOLVED_FIGURES = "no run solved, so there are no figures over solved runs"
+
+
+def _table(
+    head: Sequence[str],
+    body: Sequence[Sequence[str]],
+    numeric: Sequence[bool],
+    caption: str = "",
+    notes: Mapping[int, str] | None = None,
+) -> Table:
+    return Table(
+        tuple(head),
+        tuple(tuple(row) for row in body),
+        tuple(numeric),
+        caption,
+        tuple(sorted((notes or {}).items())),
+    )
+
+
+def _summary(rows: Sequence[ReportRow], names: Sequence[tuple[str, str]], fn: Footnotes) -> Section:
+    """Two tables: what became of every run, and the figures over the solved runs."""
+    outcome_notes: dict[int, str] = {}
+    outcomes = []
+    for r, (evolver, task) in zip(rows, names, strict=True):
+        s = r.summary
+        ert = (
+            figure("ert", s.ert) if s.solved else f"{DASH} {fn.cite(NO_SOLVED_ERT, outcome_notes)}"
+        )
+        outcomes.append(
+            [
+                evolver,
+                task,
+                count(s.runs),
+                count(s.solved),
+                count(s.failed),
+                f"{s.success_rate:.0%} ({s.success_ci[0]:.0%}-{s.success_ci[1]:.0%})",
+                ert,
+            ]
+        )
+    solved_notes: dict[int, str] = {}
+    solved = []
+    for r, (evolver, task) in zip(rows, names, strict=True):
+        s = r.summary
+        cells = [
+            figure("mean_evaluations", s.mean_evaluations),
+            figure("median_evaluations", s.median_evaluations),
+            figure("mean_generations", s.mean_generations),
+            figure("mean_hidden_nodes", s.mean_hidden_nodes),
+            figure("mean_connections", s.mean_connections),
+        ]
+        if not s.solved:
+            cells[0] = f"{DASH} {fn.cite(NO_SOLVED_FIGURES, solved_notes)}"
+        solved.append([evolver, task, *cells])
+    return Section(
+        "Runs: outcome of every run",
+        (
+            _table(
+                ["evolver", "task", "runs", "solved", "failed", "success (95% CI)", "ERT"],
+                outcomes,
+                [False, False, True, True, True, True, True],
+                notes=outcome_notes,
+            ),
+            _table(
+                [
+                    "evolver",
+                    "task",
+                    "mean evals",
+                    "median evals",
+                    "mean gens",
+                    "hidden nodes",
+                    "connections",
+                ],
+                solved,
+                [False, False, True, True, True, True, True],
+                caption="Solved runs: evaluations and generations to solve, size of the "
+                "solution (means and medians over solved runs)",
+                notes=solved_notes,
+            ),
+        ),
+    )
+
+
+def _metrics(
+    rows: Sequence[ReportRow], names: Sequence[tuple[str, str]], fn: Footnotes
+) -> Section | None:
+    """The task-declared metrics: mean over solved runs, unit, direction; the meaning of
+    each metric in a footnote."""
+    notes: dict[int, str] = {}
+    body = [
+        [
+            evolver,
+            task,
+            f"{m.name} {fn.cite(f'{m.name}: {m.description}', notes)}",
+            figure(m.name, r.summary.metrics.get(m.name)),
+            m.unit,
+            f"{m.better} is better",
+        ]
+        for r, (evolver, task) in zip(rows, names, strict=True)
+        for m in r.metrics
+    ]
+    if not body:
+        return None
+    head = ["evolver", "task", "metric", "mean (solved runs)", "unit", "direction"]
+    table = _table(head, body, [False, False, False, True, False, False], notes=notes)
+    return Section("Task metrics (means over solved runs)", (table,))
+
+
+def _failures(rows: Sequence[ReportRow], names: Sequence[tuple[str, str]]) -> Section | None:
+    """One table per group with failed runs: run index, generations (gens), reason."""
+    tables = tuple(
+        _table(
+            ["run", "gens", "reason"],
+            [[count(i), count(g), reason] for i, g, reason in r.failures],
+            [True, True, False],
+            caption=f"{evolver} on {task}",
+        )
+        for r, (evolver, task) in zip(rows, names, strict=True)
+        if r.failures
+    )
+    if not tables:
+        return None
+    return Section(
+        "Failed runs (the run broke; an unsolved run spent its budget and is not listed)", tables
+    )
+
+
+FROM_MEMORY = "recalled from memory: information only, never a pass/fail check"
+
+
+def _published_row(c: Comparison, fn: Footnotes, notes: dict[int, str]) -> list[str]:
+    provenance = c.provenance + (f" {fn.cite(FROM_MEMORY, notes)}" if c.from_memory else "")
+    if c.comparable:
+        verdict = "yes"
+    else:
+        why = "not comparable: measured under " + "; ".join(c.mismatches)
+        verdict = f"no {fn.cite(why, notes)}"
+    return [
+        f"{c.method} {fn.cite(c.source, notes)}",
+        c.metric,
+        figure(c.metric, c.measured),
+        figure(c.metric, c.published),
+        ratio(c.ratio) if c.comparable else DASH,
+        p_value(c.p_value, c.test),
+        provenance,
+        verdict,
+    ]
+
+
+def _published(
+    rows: Sequence[ReportRow], names: Sequence[tuple[str, str]], fn: Footnotes
+) -> Section | None:
+    """One table per group with published figures; the source (cited after the method),
+    protocol differences and figures from memory as footnotes."""
+    tables = []
+    for r, (evolver, task) in zip(rows, names, strict=True):
+        if not r.comparisons:
+            continue
+        notes: dict[int, str] = {}
+        body = [_published_row(c, fn, notes) for c in r.comparisons]
+        head = ["method", "metric", "measured", "published", "ratio", "p (test)", "provenance"]
+        tables.append(
+            _table(
+                [*head, "comparable"],
+                body,
+                [False, False, True, True, True, True, False, False],
+                caption=f"{evolver} on {task}",
+                notes=notes,
+            )
+        )
+    if not tables:
+        return None
+    title = "Published figures beside measured values (ratio = measured / published)"
+    return Section(title, tuple(tables))
+
+
+def _setting(value: Any) -> str:
+    return f"{value:.6g}" if isinstance(value, float) else str(value)
+
+
+def _pairs(settings: Mapping[str, Any]) -> tuple[tuple[str, str], ...]:
+    return tuple((k, _setting(v)) for k, v in sorted(settings.items()))
+
+
+def _settings(
+    rows: Sequence[ReportRow], names: Sequence[tuple[str, str]]
+) -> tuple[SettingsGroup, ...]:
+    """Every distinct task and evolver setting the rows were measured under.
+
+    Evolver options given for the runs are listed apart from the evolver's defaults, so a
+    reader sees at once which settings were chosen away from them."""
+    seen: dict[str, SettingsGroup] = {}
+    for r, (_, task) in zip(rows, names, strict=True):
+        heading = f"task {task}"
+        seen.setdefault(heading, SettingsGroup(heading, (("", _pairs(r.task_settings)),)))
+    for r in rows:
+        heading = f"evolver {r.evolver} [{r.config_hash[:6]}]"
+        given = {k: r.evolver_settings.get(k, v) for k, v in r.evolver_config.items()}
+        defaults = {k: v for k, v in r.evolver_settings.items() if k not in given}
+        parts = [("set for these runs", _pairs(given))] if given else []
+        if defaults:
+            parts.append(("the evolver's defaults", _pairs(defaults)))
+        elif not given:
+            parts.append(("the evolver's defaults (it reports no settings)", ()))
+        seen.setdefault(heading, SettingsGroup(heading, tuple(parts)))
+    return tuple(seen.values())
+
+
+NOTES = (
+    "Success rate and ERT count every run (ERT = all evaluations spent, solved or not, / "
+    "solved runs); evaluations, generations and sizes are over solved runs. Evaluations "
+    "do not include the episodes of success tests.",
+    "failed means that the run broke: the evolver raised an error, hung past the time limit, "
+    "died, or broke the evolver contract. It does not mean unsolved: an unsolved run kept "
+    "to the rules and spent its evaluation budget without solving. Failed runs count as "
+    'not solved and are listed with their reasons under "Failed runs".',
+    "The six characters in brackets after an evolver's name (as in name [1a2b3c]) begin "
+    "the hash of the evolver's effective configuration: every option with its value, "
+    "defaults included. The same name and hash is the same configuration; the settings "
+    "list each one. The same brackets after a task's id identify its settings, where a "
+    "task was run under more than one.",
+    "p: two-sided p-value that the measured and the published runs have the same mean "
+    "(Welch's t-test) or the same success rate (Fisher's exact test), where the paper "
+    "gives the run count and spread the test needs. A comparable figure was measured under "
+    "the same protocol settings as the runs; the ratio of any other is not shown.",
+)
+
+
+def document(rows: Sequence[ReportRow]) -> Document:
+    """The report of ``rows`` (see the module docstring)."""
+    names = row_labels(rows)
+    fn = Footnotes()
+    return Document(
+        summary=_summary(rows, names, fn),
+        metrics=_metrics(rows, names, fn),
+        failures=_failures(rows, names),
+        published=_published(rows, names, fn),
+        settings=_settings(rows, names),
+        notes=NOTES,
+        labels=tuple(names),
+    )

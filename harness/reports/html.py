@@ -1,0 +1,98 @@
+"""The HTML report: one self-contained page (:func:`render_html`).
+
+The page needs nothing but itself: no script, font or stylesheet from elsewhere, and every
+plot (:mod:`.plots`) embedded as a ``data:`` URI of a PNG image. It shows the tables of
+the text report (:func:`.document.document`), the plots of each task, the settings and
+the notes. The template (``templates/report.html.j2``) is rendered by jinja2 with
+autoescaping, so every string from the runs (evolver names, task ids, settings, failure
+reasons, sources) is shown as text, never read as markup.
+"""
+
+from __future__ import annotations
+
+import base64
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from jinja2 import Environment, PackageLoader, StrictUndefined
+
+from neuroyard.harness.records.runs import RunRecord
+from neuroyard.harness.reports import plots
+from neuroyard.harness.reports.document import document
+from neuroyard.harness.reports.report import ReportRow
+from neuroyard.tasks import Metric
+
+_ENV = Environment(
+    loader=PackageLoader("neuroyard.harness.reports", "templates"),
+    autoescape=True,
+    undefined=StrictUndefined,
+)
+
+ECDF_CAPTION = (
+    "Fraction of all runs (failed and unsolved ones included) solved within each count of "
+    "evaluations, log scale. A run that did not solve never takes its step, so each curve "
+    "ends at the success rate."
+)
+FITNESS_CAPTION = (
+    "Median over the runs of the best fitness found so far, against evaluations (log "
+    "scale); the band spans the first to the third quartile. A run that ended keeps its "
+    "last value. From the generation logs."
+)
+SIZES_CAPTION = "Hidden nodes and enabled connections of the solutions (solved runs only)."
+
+
+@dataclass(frozen=True)
+class Plot:
+    """One embedded image: base64 PNG, alternative text and caption."""
+
+    png: str
+    alt: str
+    caption: str
+
+
+@dataclass(frozen=True)
+class TaskPlots:
+    """The plots of one task, under its label in the report's tables."""
+
+    label: str
+    images: tuple[Plot, ...]
+
+
+def _plot(png: bytes | None, alt: str, caption: str) -> list[Plot]:
+    return [] if png is None else [Plot(base64.b64encode(png).decode("ascii"), alt, caption)]
+
+
+def task_plots(
+    task: str, groups: dict[str, Sequence[RunRecord]], metrics: Sequence[Metric]
+) -> TaskPlots:
+    """Every plot of one task's runs, given as ``{series label: records}``."""
+    images = [
+        *_plot(
+            plots.ecdf_png(groups, task), f"runs solved against evaluations, {task}", ECDF_CAPTION
+        ),
+        *_plot(
+            plots.fitness_png(groups, task),
+            f"best fitness against evaluations, {task}",
+            FITNESS_CAPTION,
+        ),
+        *_plot(plots.sizes_png(groups, task), f"sizes of the solutions, {task}", SIZES_CAPTION),
+    ]
+    for m in metrics:
+        caption = f"{m.name}: {m.description} (solved runs only)."
+        images += _plot(
+            plots.metric_png(groups, task, m), f"{m.name} of the solutions, {task}", caption
+        )
+    return TaskPlots(task, tuple(images))
+
+
+def render_html(rows: Sequence[ReportRow]) -> str:
+    """The HTML page of ``rows``; the plots of fitness against evaluations need the rows'
+    records read with their generation logs."""
+    doc = document(rows)
+    by_task: dict[str, dict[str, Sequence[RunRecord]]] = {}
+    metrics: dict[str, Sequence[Metric]] = {}
+    for row, (evolver, task) in zip(rows, doc.labels, strict=True):
+        by_task.setdefault(task, {})[evolver] = row.records
+        metrics.setdefault(task, row.metrics)
+    pages = [task_plots(task, groups, metrics[task]) for task, groups in by_task.items()]
+    return _ENV.get_template("report.html.j2").render(doc=doc, plots=pages)
