@@ -258,3 +258,22 @@ def test_best_fitness_quartiles_follow_each_runs_best_so_far():
     for k in range(1, grid.size):
         column = by_hand[:, k][~np.isnan(by_hand[:, k])]
         assert [low[k], median[k], high[k]] == pytest.approx(np.percentile(column, [25, 50, 75]))
+
+
+def test_the_html_comparison_renders_every_image_and_escapes_names(tmp_path, monkeypatch, capsys):
+    monkeypatch.syspath_prepend(str(HERE))
+    markup = importlib.import_module("markup_plugins")
+    name = f"markup_plugins:{markup.MARKUP}"
+    store = tmp_path / "pair.db"
+    common = ["--task", "xor-v2", "--runs", "3", "--budget", "3000", "--store", str(store)]
+    for evolver in ("hill-climber", name):
+        assert main(["run", "--evolver", evolver, *common, "--in-process", "--quiet"]) == 0
+    capsys.readouterr()
+    page = tmp_path / "compare.html"
+    argv = ["compare", "--store", str(store), "--a", "hill-climber", "--b", name]
+    assert main([*argv, "--format", "html", "-o", str(page)]) == 0, capsys.readouterr().err
+    seen, source = check_page(page, tmp_path)
+    assert seen["images"] >= 2  # runtime distribution and fitness curves of xor-v2 at least
+    assert "<b>" not in source and "&lt;b&gt;x&lt;/b&gt;&amp;" in source
+    assert seen["bold"] == 0 and name in seen["text"]
+    assert "success rate" in seen["text"] and "runs needed" in seen["text"]

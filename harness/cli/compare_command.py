@@ -6,11 +6,10 @@ import argparse
 from pathlib import Path
 from typing import Any
 
+from neuroyard.harness.cli.output import check_output, write_output
 from neuroyard.harness.core.errors import NeuroyardError
 from neuroyard.harness.records.store import DEFAULT_PATH, ResultStore
-from neuroyard.harness.reports import compare, comparison_renderers
-
-FORMATS = ("text", "markdown", "json")
+from neuroyard.harness.reports import compare, renderers
 
 
 def add_parser(sub: Any, level: Any) -> None:
@@ -21,26 +20,29 @@ def add_parser(sub: Any, level: Any) -> None:
     p.add_argument("--a", metavar="EVOLVER[@HASH]", help="side A (default: the only one there)")
     p.add_argument("--b", metavar="EVOLVER[@HASH]", help="side B (default: the only one there)")
     p.add_argument("--alpha", type=level, default=compare.ALPHA, help="significance level")
-    p.add_argument("--format", choices=FORMATS, default="text")
+    p.add_argument(
+        "--format", default="text", help="text, markdown, json, html or an installed renderer"
+    )
+    p.add_argument("-o", "--output", type=Path, metavar="FILE", help="write to FILE, not stdout")
 
 
 def command(args: argparse.Namespace) -> None:
     """Read both sides, compare them, print the comparison."""
+    renderers.check_format(args.format, "comparison")
     store_b = args.store_b or args.store
     if store_b == args.store and args.a is None and args.b is None:
         raise NeuroyardError("compare: name the sides with --a and --b, or give --store-b")
-    a_label, a_runs = _side(args.store, args.a)
-    b_label, b_runs = _side(store_b, args.b)
+    check_output(args.output, [args.store, store_b])
+    logs = renderers.needs_logs(args.format, "comparison")
+    a_label, a_runs = _side(args.store, args.a, logs)
+    b_label, b_runs = _side(store_b, args.b, logs)
     if store_b != args.store:
         a_label, b_label = f"{a_label} from {args.store}", f"{b_label} from {store_b}"
     result = compare.compare(a_label, a_runs, b_label, b_runs, alpha=args.alpha)
-    if args.format == "json":
-        print(comparison_renderers.comparison_json(result))
-    else:
-        print(comparison_renderers.comparison_text(result, args.format))
+    write_output(renderers.render(result, args.format, "comparison"), args.output)
 
 
-def _side(path: Path, selector: str | None) -> tuple[str, list]:
+def _side(path: Path, selector: str | None, logs: bool) -> tuple[str, list]:
     with ResultStore(path, write=False) as store:
-        records = list(store.records(with_log=False))
+        records = list(store.records(with_log=logs))
     return compare.select(records, selector, f"results store {path}")

@@ -18,6 +18,7 @@ from pathlib import Path
 from typing import Any, NoReturn
 
 from neuroyard.harness.cli import compare_command, listing, replay
+from neuroyard.harness.cli.output import check_output, write_output
 from neuroyard.harness.core import jsonsafe
 from neuroyard.harness.core.batch import compile_network
 from neuroyard.harness.core.errors import NeuroyardError
@@ -233,21 +234,10 @@ def _cmd_run(args: argparse.Namespace) -> None:
 
 def _cmd_report(args: argparse.Namespace) -> None:
     renderers.check_format(args.format)  # before the store is opened
-    output: Path | None = args.output
-    if output is not None and output.resolve() == args.store.resolve():
-        raise NeuroyardError(f"report output {output}: is the results store, not overwritten")
+    check_output(args.output, [args.store])
     with ResultStore(args.store, write=False) as store:
         rows = report.build(store.records(with_log=renderers.needs_logs(args.format)))
-    text = renderers.render(rows, args.format)
-    if output is None:
-        print(text)
-        return
-    try:
-        output.write_text(text + "\n", encoding="utf-8")
-    except OSError as exc:
-        raise NeuroyardError(
-            f"report output {output}: cannot write it ({exc.strerror or exc})"
-        ) from None
+    write_output(renderers.render(rows, args.format), args.output)
 
 
 def _cmd_export(args: argparse.Namespace) -> None:

@@ -68,6 +68,9 @@ class TaskComparison:
     runs: int
     rows: tuple[MetricRow, ...]
     notes: tuple[str, ...] = ()
+    # the runs compared, for plots; not part of the JSON
+    a_runs: tuple[RunRecord, ...] = field(default=(), repr=False)
+    b_runs: tuple[RunRecord, ...] = field(default=(), repr=False)
 
 
 @dataclass(frozen=True)
@@ -83,6 +86,7 @@ class Comparison:
     def to_json(self) -> dict[str, Any]:
         doc = asdict(self)
         for task in doc["tasks"]:
+            del task["a_runs"], task["b_runs"]
             for row in task["rows"]:
                 row["test"] = row.pop("result")
         return doc
@@ -115,23 +119,23 @@ def compare(
     for key in sorted(set(groups_a) ^ set(groups_b)):
         side = "A" if key in groups_a else "B"
         notes.append(f"{key[0]} ({_settings_text(key[1])}) has runs on side {side} only: left out")
-    pending: list[tuple[str, str, int, list[str], list[_Pending]]] = []
+    pending = []
     for key in sorted(set(groups_a) & set(groups_b)):
         task, settings_text = key
         runs_a, runs_b, task_notes = _paired(groups_a[key], groups_b[key])
         rows = _task_rows(task, runs_a, runs_b) if runs_a else []
-        pending.append((task, settings_text, len(runs_a), task_notes, rows))
+        pending.append((task, settings_text, runs_a, runs_b, task_notes, rows))
     flat = [row for *_, rows in pending for row in rows]
     adjusted = iter(holm([row.result.p_value for row in flat]))
     tasks = []
-    for task, settings_text, n, task_notes, rows in pending:
+    for task, settings_text, runs_a, runs_b, task_notes, rows in pending:
         done = []
         for row in rows:
             p = next(adjusted)
             done.append(MetricRow(row.task, row.metric, row.better, row.a, row.b, row.result,
                                   p, row.needed, row.describe(p, alpha)))  # fmt: skip
-        tasks.append(TaskComparison(task, json.loads(settings_text), n, tuple(done),
-                                    tuple(task_notes)))  # fmt: skip
+        tasks.append(TaskComparison(task, json.loads(settings_text), len(runs_a), tuple(done),
+                                    tuple(task_notes), tuple(runs_a), tuple(runs_b)))  # fmt: skip
     return Comparison(a_label, b_label, alpha, tuple(tasks), tuple(notes))
 
 

@@ -36,14 +36,14 @@ def comparison_text(comparison: Comparison, fmt: str = "text") -> str:
     if fmt == "markdown":
         lines = [bullet + line for line in lines]
     for task in comparison.tasks:
-        settings = _settings_text(task.task, task.task_settings)
+        settings = settings_text(task.task, task.task_settings)
         lines += ["", f"{heading}{task.task} ({settings}): {task.runs} runs"]
         for note in task.notes:
             lines.append(f"{bullet}note: {note}")
         if not task.rows:
             continue
         table = [
-            [row.metric, row.a, row.b, _effect(row), _p(row.p_holm), row.runs_needed or "-"]
+            [row.metric, row.a, row.b, effect_text(row), p_text(row.p_holm), row.runs_needed or "-"]
             for row in task.rows
         ]
         head = ["figure", "A", "B", "A12 / diff", "p (Holm)", "runs needed"]
@@ -57,7 +57,7 @@ def comparison_text(comparison: Comparison, fmt: str = "text") -> str:
     return "\n".join(_wrapped(lines))
 
 
-def _settings_text(task_id: str, settings: dict) -> str:
+def settings_text(task_id: str, settings: dict) -> str:
     """The settings that differ from the task's defaults, or "default settings"."""
     try:
         defaults = task_class(task_id).option_table().defaults()
@@ -67,18 +67,22 @@ def _settings_text(task_id: str, settings: dict) -> str:
     return ", ".join(f"{k}={v}" for k, v in changed.items()) or "default settings"
 
 
+def comparison_markdown(comparison: Comparison) -> str:
+    return comparison_text(comparison, "markdown")
+
+
 def comparison_json(comparison: Comparison) -> str:
     return jsonsafe.dumps(comparison.to_json(), indent=2)
 
 
-def _effect(row: MetricRow) -> str:
+def effect_text(row: MetricRow) -> str:
     effect = row.result.effect
     if effect is None:
         return "-"
     return f"{effect:+.2f}" if row.result.test == "Fisher exact" else f"{effect:.2f}"
 
 
-def _p(p: float | None) -> str:
+def p_text(p: float | None) -> str:
     if p is None:
         return "not run"
     return f"{p:.2g}" if p >= 0.001 else "< 0.001"

@@ -18,9 +18,11 @@ from jinja2 import Environment, PackageLoader, StrictUndefined
 
 from neuroyard.harness.records.runs import RunRecord
 from neuroyard.harness.reports import plots
+from neuroyard.harness.reports.compare import Comparison
+from neuroyard.harness.reports.comparison_renderers import NOTES, effect_text, p_text, settings_text
 from neuroyard.harness.reports.document import document
 from neuroyard.harness.reports.report import ReportRow
-from neuroyard.tasks import Metric
+from neuroyard.tasks import Metric, declared_metrics
 
 _ENV = Environment(
     loader=PackageLoader("neuroyard.harness.reports", "templates"),
@@ -96,3 +98,23 @@ def render_html(rows: Sequence[ReportRow]) -> str:
         metrics.setdefault(task, row.metrics)
     pages = [task_plots(task, groups, metrics[task]) for task, groups in by_task.items()]
     return _ENV.get_template("report.html.j2").render(doc=doc, plots=pages)
+
+
+def render_comparison_html(comparison: Comparison) -> str:
+    """The HTML page of a comparison: per task its table, verdicts and plots of both
+    sides (the plots of fitness against evaluations need the runs' generation logs)."""
+    sections = []
+    for task in comparison.tasks:
+        groups = {f"A: {comparison.a}": task.a_runs, f"B: {comparison.b}": task.b_runs}
+        metrics = declared_metrics(task.task, task.task_settings)
+        cells = [(effect_text(row), p_text(row.p_holm)) for row in task.rows]
+        sections.append(
+            {
+                "task": task,
+                "settings": settings_text(task.task, task.task_settings),
+                "rows": list(zip(task.rows, cells, strict=True)),
+                "plots": task_plots(task.task, groups, metrics),
+            }
+        )
+    page = _ENV.get_template("comparison.html.j2")
+    return page.render(comparison=comparison, sections=sections, notes=NOTES)

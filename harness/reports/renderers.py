@@ -1,12 +1,15 @@
 """Report renderers, found by name in one registry.
 
-A renderer turns report rows (:func:`.report.build`) into one document: a function
-``(rows) -> str``. Built in: ``text`` (tables that fit 120 columns) and ``markdown``
+A renderer turns one kind of document into text: a function ``(document) -> str``. Two
+kinds: ``report`` (report rows, :func:`.report.build`) and ``comparison`` (a
+:class:`.compare.Comparison`). For reports, Built in: ``text`` (tables that fit 120 columns) and ``markdown``
 (GitHub tables), both laid out from :func:`.document.document`; ``json`` (a list of rows,
 strict JSON); ``html`` (a self-contained page with plots, :mod:`.html`). Register another
 with :func:`register_renderer`, or from another package through the entry-point group
 ``neuroyard.renderers`` (the target is the function); ``neuroyard report --format NAME``
-then finds it.
+then finds it. Comparisons have ``text``, ``markdown``, ``json`` and ``html``
+(:mod:`.comparison_renderers`, :mod:`.html`) and the group ``neuroyard.comparison_renderers``
+(``neuroyard compare --format NAME``).
 """
 
 from __future__ import annotations
@@ -14,61 +17,67 @@ from __future__ import annotations
 import textwrap
 from collections.abc import Callable, Sequence
 from importlib.metadata import entry_points
+from typing import Any
 
 from tabulate import MIN_PADDING, tabulate
 
 from neuroyard.harness.core import jsonsafe
 from neuroyard.harness.core.errors import NeuroyardError
-from neuroyard.harness.reports import html
+from neuroyard.harness.reports import comparison_renderers, html
 from neuroyard.harness.reports.document import SettingsGroup, Table, document
 from neuroyard.harness.reports.report import ReportRow
 
-ENTRY_POINT_GROUP = "neuroyard.renderers"
-Renderer = Callable[[Sequence[ReportRow]], str]
-_RENDERERS: dict[str, Renderer] = {}
+ENTRY_POINT_GROUPS = {
+    "report": "neuroyard.renderers",
+    "comparison": "neuroyard.comparison_renderers",
+}
+Renderer = Callable[[Any], str]
+_RENDERERS: dict[tuple[str, str], Renderer] = {}
+_WITH_LOG: set[tuple[str, str]] = set()
 
 
-_WITH_LOG: set[str] = set()
-
-
-def register_renderer(name: str, with_log: bool = False) -> Callable[[Renderer], Renderer]:
-    """Decorator: make a renderer available under ``name``. ``with_log``: the renderer
-    reads the generation logs of the rows' records (:attr:`ReportRow.records`), so the
-    records must be read from the store with them."""
+def register_renderer(
+    name: str, with_log: bool = False, kind: str = "report"
+) -> Callable[[Renderer], Renderer]:
+    """Decorator: make a renderer of documents of ``kind`` available under ``name``.
+    ``with_log``: the renderer reads the generation logs of the runs (the rows' or the
+    comparison's records), so the records must be read from the store with them."""
+    if kind not in ENTRY_POINT_GROUPS:
+        raise ValueError(f"renderer kind must be one of {', '.join(ENTRY_POINT_GROUPS)}")
 
     def add(fn: Renderer) -> Renderer:
-        _RENDERERS[name] = fn
+        _RENDERERS[kind, name] = fn
         if with_log:
-            _WITH_LOG.add(name)
+            _WITH_LOG.add((kind, name))
         return fn
 
     return add
 
 
-def needs_logs(fmt: str) -> bool:
+def needs_logs(fmt: str, kind: str = "report") -> bool:
     """Whether renderer ``fmt`` reads the generation logs of the runs."""
-    return fmt in _WITH_LOG
+    return (kind, fmt) in _WITH_LOG
 
 
-def renderer_names() -> list[str]:
-    """Names of every renderer, built in and installed."""
-    for ep in entry_points(group=ENTRY_POINT_GROUP):
-        if ep.name not in _RENDERERS:
-            _RENDERERS[ep.name] = ep.load()
-    return sorted(_RENDERERS)
+def renderer_names(kind: str = "report") -> list[str]:
+    """Names of every renderer of ``kind``, built in and installed."""
+    for ep in entry_points(group=ENTRY_POINT_GROUPS[kind]):
+        if (kind, ep.name) not in _RENDERERS:
+            _RENDERERS[kind, ep.name] = ep.load()
+    return sorted(name for k, name in _RENDERERS if k == kind)
 
 
-def check_format(fmt: str) -> None:
+def check_format(fmt: str, kind: str = "report") -> None:
     """A :class:`NeuroyardError` naming the known formats when ``fmt`` is none of them."""
-    names = renderer_names()
+    names = renderer_names(kind)
     if fmt not in names:
-        raise NeuroyardError(f"unknown report format {fmt!r} (known: {', '.join(names)})")
+        raise NeuroyardError(f"unknown {kind} format {fmt!r} (known: {', '.join(names)})")
 
 
-def render(rows: Sequence[ReportRow], fmt: str = "text") -> str:
-    """The report in format ``fmt`` (a renderer name)."""
-    check_format(fmt)
-    return _RENDERERS[fmt](rows)
+def render(document: Any, fmt: str = "text", kind: str = "report") -> str:
+    """``document`` (report rows, or a comparison) in format ``fmt`` (a renderer name)."""
+    check_format(fmt, kind)
+    return _RENDERERS[kind, fmt](document)
 
 
 WIDTH = 120  # columns of the text report
@@ -208,3 +217,8 @@ def render_json(rows: Sequence[ReportRow]) -> str:
 
 
 render_html = register_renderer("html", with_log=True)(html.render_html)
+
+register_renderer("text", kind="comparison")(comparison_renderers.comparison_text)
+register_renderer("markdown", kind="comparison")(comparison_renderers.comparison_markdown)
+register_renderer("json", kind="comparison")(comparison_renderers.comparison_json)
+register_renderer("html", with_log=True, kind="comparison")(html.render_comparison_html)
