@@ -168,7 +168,12 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--quiet", action="store_true", help="no progress bar and no report")
 
     rp = sub.add_parser("report", help="summarise the runs in a store")
-    rp.add_argument("--store", type=Path, default=DEFAULT_PATH)
+    rp.add_argument(
+        "--store",
+        type=Path,
+        action="append",
+        help=f"results store; repeat it to report several together (default {DEFAULT_PATH})",
+    )
     rp.add_argument(
         "--format", default="text", help="text, markdown, json, html or an installed renderer"
     )
@@ -234,10 +239,13 @@ def _cmd_run(args: argparse.Namespace) -> None:
 
 def _cmd_report(args: argparse.Namespace) -> None:
     renderers.check_format(args.format)  # before the store is opened
-    check_output(args.output, [args.store])
-    with ResultStore(args.store, write=False) as store:
-        rows = report.build(store.records(with_log=renderers.needs_logs(args.format)))
-    write_output(renderers.render(rows, args.format), args.output)
+    stores = args.store or [DEFAULT_PATH]
+    check_output(args.output, stores)
+    records = []
+    for path in stores:
+        with ResultStore(path, write=False) as store:
+            records += store.records(with_log=renderers.needs_logs(args.format))
+    write_output(renderers.render(report.build(records), args.format), args.output)
 
 
 def _cmd_export(args: argparse.Namespace) -> None:

@@ -43,7 +43,7 @@ def comparison_text(comparison: Comparison, fmt: str = "text") -> str:
         if not task.rows:
             continue
         table = [
-            [row.metric, row.a, row.b, effect_text(row), p_text(row.p_holm), row.runs_needed or "-"]
+            [row.metric, row.a, row.b, effect_text(row), p_text(row.p_holm), runs_text(row)]
             for row in task.rows
         ]
         head = ["figure", "A", "B", "A12 / diff", "p (Holm)", "runs needed"]
@@ -80,6 +80,11 @@ def effect_text(row: MetricRow) -> str:
     if effect is None:
         return "-"
     return f"{effect:+.2f}" if row.result.test == "Fisher exact" else f"{effect:.2f}"
+
+
+def runs_text(row: MetricRow) -> str:
+    """The runs per side a test would need, with thousands separators ("-": no effect)."""
+    return "-" if row.runs_needed is None else f"{row.runs_needed:,}"
 
 
 def p_text(p: float | None) -> str:

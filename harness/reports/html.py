@@ -19,7 +19,13 @@ from jinja2 import Environment, PackageLoader, StrictUndefined
 from neuroyard.harness.records.runs import RunRecord
 from neuroyard.harness.reports import plots
 from neuroyard.harness.reports.compare import Comparison
-from neuroyard.harness.reports.comparison_renderers import NOTES, effect_text, p_text, settings_text
+from neuroyard.harness.reports.comparison_renderers import (
+    NOTES,
+    effect_text,
+    p_text,
+    runs_text,
+    settings_text,
+)
 from neuroyard.harness.reports.document import document
 from neuroyard.harness.reports.report import ReportRow
 from neuroyard.tasks import Metric, declared_metrics
@@ -107,7 +113,7 @@ def render_comparison_html(comparison: Comparison) -> str:
     for task in comparison.tasks:
         groups = {f"A: {comparison.a}": task.a_runs, f"B: {comparison.b}": task.b_runs}
         metrics = declared_metrics(task.task, task.task_settings)
-        cells = [(effect_text(row), p_text(row.p_holm)) for row in task.rows]
+        cells = [(effect_text(row), p_text(row.p_holm), runs_text(row)) for row in task.rows]
         sections.append(
             {
                 "task": task,

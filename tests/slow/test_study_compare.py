@@ -9,7 +9,7 @@
   of issue 16 allows at most 2. Writes ``results/compare/same_evolver.json``.
 * ``test_example_comparisons``: NEAT against NEAT without crossover and against random
   weight guessing, on XOR and on the double pole with velocities (20 runs each, campaign
-  seed 1). Writes ``results/compare/neat_vs_*.{md,json}``.
+  seed 1). Writes ``results/compare/neat_vs_*.{md,json,html}``.
 
 The stores are written to a temporary folder (they can be made again with this command);
 only the comparisons are committed.
@@ -30,6 +30,7 @@ from neuroyard.harness.execution.supervisor import Supervisor
 from neuroyard.harness.records.store import ResultStore
 from neuroyard.harness.reports.compare import compare, configurations
 from neuroyard.harness.reports.comparison_renderers import comparison_json, comparison_text
+from neuroyard.harness.reports.renderers import render
 
 pytestmark = pytest.mark.slow
 
@@ -39,9 +40,9 @@ PAIRS, RUNS = 20, 20
 ALLOWED_FALSE_ALARMS = 2  # issue 16 acceptance: at most 2 of 20 pairs at alpha 0.05
 
 
-def _records(store: Path) -> dict[str, list]:
+def _records(store: Path, with_log: bool = False) -> dict[str, list]:
     with ResultStore(store, write=False) as results:
-        return configurations(results.records(with_log=False))
+        return configurations(results.records(with_log=with_log))
 
 
 def test_false_alarms_between_campaigns_of_one_evolver(tmp_path) -> None:
@@ -111,7 +112,7 @@ def test_example_comparisons(tmp_path) -> None:
     with ResultStore(store) as results:
         execute(CampaignPlan(evolvers, tasks, RUNS, 1), results, Supervisor(WORKERS),
                 progress=False)  # fmt: skip
-    groups = _records(store)
+    groups = _records(store, with_log=True)  # the HTML page plots fitness from the logs
     neat = _label(evolvers[0])
     OUT.mkdir(parents=True, exist_ok=True)
     found = {}
@@ -126,6 +127,7 @@ def test_example_comparisons(tmp_path) -> None:
             + "\n"
         )
         (OUT / f"{name}.json").write_text(comparison_json(result) + "\n")
+        (OUT / f"{name}.html").write_text(render(result, "html", "comparison") + "\n")
         found[name] = {t.task: [r.verdict for r in t.rows] for t in result.tasks}
     print(json.dumps(found, indent=1))
     for name, verdicts in found.items():  # both tasks compared, every row with a verdict
