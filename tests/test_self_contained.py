@@ -69,8 +69,14 @@ def tracked_text_files() -> dict[str, str]:
     return out
 
 
+# An image embedded in a page (its base64 text may hold slashes that look like paths).
+DATA_URI = re.compile(r"data:[\w/+.-]+;base64,[A-Za-z0-9+/=]+")
+
+
 def outside_references(text: str) -> list[str]:
-    """What in ``text`` names a place outside the repository (empty when nothing does)."""
+    """What in ``text`` names a place outside the repository (empty when nothing does);
+    embedded images (``data:`` URIs) are not read."""
+    text = DATA_URI.sub("data:", text)
     found = [f"{what}: {m.group(0)}" for what, p in OUTSIDE.items() for m in p.finditer(text)]
     for line_no, line in enumerate(text.splitlines(), 1):
         for m in ABSOLUTE.finditer(line):
@@ -105,6 +111,7 @@ def test_the_patterns_tell_outside_paths_from_others():
         'open("/proc/self/status")',
         "results store /nonexistent/x.db: no such file",
         "harness/__init__.py and ~/.local/state/neuroyard/crashes",
+        '<img src="data:image/png;base64,iVBOR+/ab/cd/ef==">',
     ]
     for text in inside:
         assert outside_references(text) == [], text
