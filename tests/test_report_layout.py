@@ -41,7 +41,7 @@ def rows(tmp_path_factory):
     campaign = folder / "campaign.db"
     with pytest.MonkeyPatch.context() as mp:
         mp.syspath_prepend(str(HERE))
-        common = ["--task", "xor-v2", "--runs", "3", "--budget", "3000", "--in-process"]
+        common = ["--task", "xor-v2", "--runs", "3", "--in-process"]  # the default budget
         for argv in (
             ["--evolver", "hill-climber"],
             ["--evolver", "hill-climber", "--param", "sigma=0.5", "--param", "offspring=30"],

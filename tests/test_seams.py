@@ -218,3 +218,17 @@ def test_each_run_builds_its_task_once(monkeypatch) -> None:
     for spec in specs:
         run_one(spec)
     assert builds == ["pole1-markov-v1"] * 3
+
+
+def test_several_stores_report_together_each_run_once(tmp_path, capsys) -> None:
+    argv = ["run", "--evolver", "rwg", "--runs", "3", "--quiet"]
+    for name in ("a.db", "b.db"):  # the same campaign twice: the same runs
+        assert cli(capsys, *argv, "--store", str(tmp_path / name))[0] == 0
+    assert cli(capsys, *argv, "--budget", "500", "--store", str(tmp_path / "b.db"))[0] == 0
+    stores = ["--store", str(tmp_path / "a.db"), "--store", str(tmp_path / "b.db")]
+    code, out, _ = cli(capsys, "report", *stores, "--format", "json")
+    rows = json.loads(out)
+    assert code == 0 and sorted(r["runs"] for r in rows) == [3, 3]  # not 6: counted once
+    code, out, _ = cli(capsys, "report", *stores)
+    # the same task under two budgets: the budget tells the groups apart
+    assert "xor-v2 (budget 500)" in out and "xor-v2 (budget 100,000)" in out

@@ -10,15 +10,13 @@ import pytest
 from neuroyard.harness.reports.significance import (
     a12,
     censored_evaluations,
-    ert_interval,
     fisher_test,
     holm,
     mann_whitney,
-    quartiles,
     runs_needed_mann_whitney,
     runs_needed_proportions,
 )
-from neuroyard.harness.reports.stats import expected_running_time
+from neuroyard.harness.reports.stats import ert_interval, expected_running_time, quartiles
 
 
 def test_quartiles_by_hand() -> None:

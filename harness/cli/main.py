@@ -40,6 +40,7 @@ from neuroyard.harness.execution.supervisor import (
     DEFAULT_TIME_LIMIT,
     Limits,
 )
+from neuroyard.harness.records.runs import record_key
 from neuroyard.harness.records.store import DEFAULT_PATH, ResultStore
 from neuroyard.harness.reports import renderers, report
 from neuroyard.tasks import make
@@ -241,11 +242,13 @@ def _cmd_report(args: argparse.Namespace) -> None:
     renderers.check_format(args.format)  # before the store is opened
     stores = args.store or [DEFAULT_PATH]
     check_output(args.output, stores)
-    records = []
+    records = {}  # by run key: a run stored in several of the stores counts once
     for path in stores:
         with ResultStore(path, write=False) as store:
-            records += store.records(with_log=renderers.needs_logs(args.format))
-    write_output(renderers.render(report.build(records), args.format), args.output)
+            for record in store.records(with_log=renderers.needs_logs(args.format)):
+                records.setdefault(record_key(record), record)
+    rows = report.build(records.values())
+    write_output(renderers.render(rows, args.format), args.output)
 
 
 def _cmd_export(args: argparse.Namespace) -> None:

@@ -32,10 +32,10 @@ from neuroyard.harness.reports.significance import (
     fisher_test,
     holm,
     mann_whitney,
-    quartiles,
     runs_needed_mann_whitney,
     runs_needed_proportions,
 )
+from neuroyard.harness.reports.stats import quartiles
 from neuroyard.tasks import declared_metrics
 
 ALPHA = 0.05  # significance level of a comparison (common practice)

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import math
 import re
 from collections.abc import Hashable, Mapping, Sequence
 from dataclasses import dataclass
@@ -157,7 +158,19 @@ def row_labels(rows: Sequence[ReportRow]) -> list[tuple[str, str]]:
         [(r.task, s) for r, s in zip(rows, settings, strict=True)],
         {s: short_hash(r.task_settings) for r, s in zip(rows, settings, strict=True)},
     )
+    # the same task and settings under several budgets: the budget joins the label
+    budgets: dict[tuple[str, str], set[int]] = {}
+    for r, s in zip(rows, settings, strict=True):
+        budgets.setdefault((r.task, s), set()).add(_budget(r))
+    tasks = [
+        f"{label} (budget {_budget(r):,})" if len(budgets[r.task, s]) > 1 else label
+        for label, r, s in zip(tasks, rows, settings, strict=True)
+    ]
     return list(zip(evolvers, tasks, strict=True))
+
+
+def _budget(row: ReportRow) -> int:
+    return row.records[0].budget if row.records else 0
 
 
 NO_SOLVED_ERT = (
@@ -184,7 +197,8 @@ def _table(
 
 
 def _summary(rows: Sequence[ReportRow], names: Sequence[tuple[str, str]], fn: Footnotes) -> Section:
-    """Two tables: what became of every run, and the figures over the solved runs."""
+    """Three tables: what became of every run, the figures over the solved runs, and their
+    medians and quartiles."""
     outcome_notes: dict[int, str] = {}
     outcomes = []
     for r, (evolver, task) in zip(rows, names, strict=True):
@@ -217,6 +231,17 @@ def _summary(rows: Sequence[ReportRow], names: Sequence[tuple[str, str]], fn: Fo
         if not s.solved:
             cells[0] = f"{DASH} {fn.cite(NO_SOLVED_FIGURES, solved_notes)}"
         solved.append([evolver, task, *cells])
+    spread = [
+        [
+            evolver,
+            task,
+            _quartiles(r.summary.quartiles_evaluations, "median_evaluations"),
+            _quartiles(r.summary.quartiles_generations, "mean_generations"),
+            _interval(r.summary.ert_ci),
+        ]
+        for r, (evolver, task) in zip(rows, names, strict=True)
+        if r.summary.solved
+    ]
     return Section(
         "Runs: outcome of every run",
         (
@@ -242,8 +267,29 @@ def _summary(rows: Sequence[ReportRow], names: Sequence[tuple[str, str]], fn: Fo
                 "solution (means and medians over solved runs)",
                 notes=solved_notes,
             ),
+            _table(
+                ["evolver", "task", "evaluations to solve", "generations to solve", "ERT 95% CI"],
+                spread,
+                [False, False, True, True, True],
+                caption="Spread: first quartile, median and third quartile over the solved runs; "
+                "95% bootstrap interval of the ERT, resampling whole runs",
+            ),
         ),
     )
+
+
+def _interval(interval: tuple[float, float] | None) -> str:
+    """``low-high`` in the ERT's format; an infinite end (too many resamples without a
+    solved run) is shown as ``—``."""
+    if interval is None:
+        return DASH
+    low, high = (DASH if math.isinf(x) else figure("ert", x) for x in interval)
+    return f"{low}-{high}"
+
+
+def _quartiles(q: tuple[float, float, float] | None, kind: str) -> str:
+    """``first quartile / median / third quartile``, each in the format of ``kind``."""
+    return DASH if q is None else " / ".join(figure(kind, x) for x in q)
 
 
 def _metrics(

@@ -173,13 +173,15 @@ def summary_of(records: Sequence[RunRecord]) -> GroupSummary:
 
 
 def build(records: Iterable[RunRecord]) -> list[ReportRow]:
-    """Group records and summarise each group (stable order: evolver, task)."""
-    groups: dict[tuple[str, str, str, str], list[RunRecord]] = {}
+    """Group records by evolver configuration, task, task settings and budget, and
+    summarise each group (stable order: evolver, task)."""
+    groups: dict[tuple[str, str, str, str, int], list[RunRecord]] = {}
     for r in records:
-        key = (r.evolver, r.config_hash, r.task, json.dumps(r.task_settings, sort_keys=True))
+        key = (r.evolver, r.config_hash, r.task, json.dumps(r.task_settings, sort_keys=True),
+               r.budget)  # fmt: skip
         groups.setdefault(key, []).append(r)
     rows = []
-    for (evolver, config_hash, task, _), group in sorted(groups.items()):
+    for (evolver, config_hash, task, _, _), group in sorted(groups.items()):
         metrics = declared_metrics(task, group[0].task_settings)
         summary = summary_of(group)
         rows.append(

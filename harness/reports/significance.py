@@ -1,4 +1,6 @@
-"""Tests between two groups of runs, their effect sizes, and the runs a test would need.
+"""Tests between two groups of runs, their effect sizes, and the runs a test would need
+(the summary figures of one group, quartiles and the ERT interval among them, are in
+:mod:`.stats`).
 
 Every test returns a :class:`TestResult`; a test that the samples cannot support is not
 run, and its ``reason`` says why (``p_value`` is then None). Conventions:
@@ -29,7 +31,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.stats import bootstrap, mannwhitneyu, norm
+from scipy.stats import mannwhitneyu, norm
 
 from neuroyard.harness.reports.stats import fisher_p_value
 
@@ -57,49 +59,6 @@ class TestResult:
     @property
     def ran(self) -> bool:
         return self.p_value is not None
-
-
-def quartiles(values: Sequence[float]) -> tuple[float, float, float] | None:
-    """(first quartile, median, third quartile) by linear interpolation between order
-    statistics (numpy's default percentile rule); None for an empty sample."""
-    if len(values) == 0:
-        return None
-    q1, q2, q3 = np.percentile(np.asarray(values, dtype=float), [25, 50, 75])
-    return float(q1), float(q2), float(q3)
-
-
-def ert_interval(
-    evaluations: Sequence[float],
-    solved: Sequence[bool],
-    confidence: float = 0.95,
-    resamples: int = 2000,
-    seed: int = 0,
-) -> tuple[float, float] | None:
-    """Percentile bootstrap interval of the ERT, resampling whole runs (scipy.stats.bootstrap,
-    paired) of :func:`~.stats.expected_running_time`; the upper end is infinite when too many resamples hold no solved run. None when
-    no run solved (the ERT itself is infinite) or there are fewer than 2 runs."""
-    e = np.asarray(evaluations, dtype=float)
-    s = np.asarray(solved, dtype=float)
-    if len(e) < MIN_RUNS or s.sum() == 0:
-        return None
-
-    def statistic(ev: np.ndarray, so: np.ndarray, axis: int = -1) -> np.ndarray:
-        wins = so.sum(axis=axis)
-        total = ev.sum(axis=axis)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            return np.where(wins > 0, total / np.where(wins > 0, wins, 1), np.inf)
-
-    result = bootstrap(
-        (e, s),
-        statistic,
-        paired=True,
-        vectorized=True,
-        confidence_level=confidence,
-        n_resamples=resamples,
-        method="percentile",
-        random_state=np.random.default_rng(seed),
-    )
-    return float(result.confidence_interval.low), float(result.confidence_interval.high)
 
 
 def fisher_test(solved_a: int, runs_a: int, solved_b: int, runs_b: int) -> TestResult:

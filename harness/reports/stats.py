@@ -3,8 +3,10 @@
 Conventions: success rate over all runs (failed and unsolved runs count as not solved)
 with a 95% Wilson score interval; evaluations, generations and network size to solve are
 taken over solved runs only; ERT (expected running time) = all evaluations spent, solved
-or not, divided by the number of solved runs (infinite when none solved). Standard
-deviations use the n - 1 divisor. Two groups (a measurement and a published figure, or two
+or not, divided by the number of solved runs (infinite when none solved), with a 95%
+percentile bootstrap interval over whole runs (reference/SOURCES.md: efron1993); medians and
+quartiles by linear interpolation between order statistics. Standard deviations use the
+n - 1 divisor. Two groups (a measurement and a published figure, or two
 variants) are compared with two-sided tests: Welch's t-test for means, Fisher's exact test
 for success counts.
 """
@@ -13,11 +15,13 @@ from __future__ import annotations
 
 import math
 import statistics
+import warnings
 from collections.abc import Sequence
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
-from scipy.stats import binomtest, fisher_exact, ttest_ind_from_stats
+import numpy as np
+from scipy.stats import binomtest, bootstrap, fisher_exact, ttest_ind_from_stats
 
 from neuroyard.harness.records.runs import RunRecord
 
@@ -56,6 +60,53 @@ def expected_running_time(evaluations: Sequence[int], solved: Sequence[bool]) ->
     return math.fsum(evaluations) / wins if wins else math.inf
 
 
+def quartiles(values: Sequence[float]) -> tuple[float, float, float] | None:
+    """(first quartile, median, third quartile) by linear interpolation between order
+    statistics (numpy's default percentile rule); None for an empty sample."""
+    if len(values) == 0:
+        return None
+    q1, q2, q3 = np.percentile(np.asarray(values, dtype=float), [25, 50, 75])
+    return float(q1), float(q2), float(q3)
+
+
+def ert_interval(
+    evaluations: Sequence[float],
+    solved: Sequence[bool],
+    confidence: float = 0.95,
+    resamples: int = 2000,
+    seed: int = 0,
+) -> tuple[float, float] | None:
+    """Percentile bootstrap interval of the ERT, resampling whole runs (scipy.stats.bootstrap,
+    paired) of :func:`expected_running_time`; the upper end is infinite when too many resamples hold no solved run. None when
+    no run solved (the ERT itself is infinite) or there are fewer than 2 runs."""
+    e = np.asarray(evaluations, dtype=float)
+    s = np.asarray(solved, dtype=float)
+    if len(e) < 2 or s.sum() == 0:
+        return None
+
+    def statistic(ev: np.ndarray, so: np.ndarray, axis: int = -1) -> np.ndarray:
+        wins = so.sum(axis=axis)
+        total = ev.sum(axis=axis)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(wins > 0, total / np.where(wins > 0, wins, 1), np.inf)
+
+    # a resample without a solved run has an infinite ERT: scipy's spread of the
+    # resamples is then undefined, which the percentile interval does not use
+    with warnings.catch_warnings(), np.errstate(invalid="ignore"):
+        warnings.simplefilter("ignore", RuntimeWarning)
+        result = bootstrap(
+            (e, s),
+            statistic,
+            paired=True,
+            vectorized=True,
+            confidence_level=confidence,
+            n_resamples=resamples,
+            method="percentile",
+            random_state=np.random.default_rng(seed),
+        )
+    return float(result.confidence_interval.low), float(result.confidence_interval.high)
+
+
 def _mean(xs: Sequence[float]) -> float | None:
     return statistics.fmean(xs) if xs else None
 
@@ -81,11 +132,14 @@ class GroupSummary:
     success_rate: float
     success_ci: tuple[float, float]
     ert: float
+    ert_ci: tuple[float, float] | None
     mean_evaluations: float | None
     sd_evaluations: float | None
     median_evaluations: float | None
+    quartiles_evaluations: tuple[float, float, float] | None
     worst_evaluations: float | None
     mean_generations: float | None
+    quartiles_generations: tuple[float, float, float] | None
     mean_hidden_nodes: float | None
     sd_hidden_nodes: float | None
     mean_connections: float | None
@@ -115,11 +169,14 @@ def summarize(records: Sequence[RunRecord], metrics: Sequence[str] = ()) -> Grou
         success_rate=len(wins) / len(records) if records else 0.0,
         success_ci=wilson_interval(len(wins), len(records)),
         ert=expected_running_time([r.evaluations for r in records], [r.solved for r in records]),
+        ert_ci=ert_interval([r.evaluations for r in records], [r.solved for r in records]),
         mean_evaluations=_mean(evals),
         sd_evaluations=_sd(evals),
         median_evaluations=_median(evals),
+        quartiles_evaluations=quartiles(evals),
         worst_evaluations=max(evals) if evals else None,
         mean_generations=_mean([float(r.generations) for r in wins]),
+        quartiles_generations=quartiles([float(r.generations) for r in wins]),
         mean_hidden_nodes=_mean(hidden),
         sd_hidden_nodes=_sd(hidden),
         mean_connections=_mean(conns),
