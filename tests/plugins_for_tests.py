@@ -6,7 +6,11 @@ Not part of the package; tests put this folder on sys.path and load them by
 
 from __future__ import annotations
 
+import time
+
 from neuroyard.harness.core.network import Connection, Network, Node
+from neuroyard.harness.core.options import Option, OptionTable
+from neuroyard.reference.neat import NeatEvolver
 
 
 def constant_network(weight: float = 0.0, activation: str = "neat_sigmoid") -> Network:
@@ -105,3 +109,28 @@ class ExitsInAsk(Returns):
 
     def ask(self):
         raise SystemExit(3)
+
+
+class SlowedNeat(NeatEvolver):
+    """The reference NEAT with a deliberate pause of ``ask_delay`` seconds in every ask():
+    slower, and otherwise the same run (the pause takes no random numbers)."""
+
+    options = OptionTable(
+        "evolver plugins_for_tests:SlowedNeat",
+        [
+            *NeatEvolver.options,
+            Option("ask_delay", 0.0, "pause in every ask()", unit="s", source="ours", low=0.0),
+        ],
+    )
+
+    def __init__(self, **settings) -> None:
+        resolved = self.options.resolve(settings)
+        self.ask_delay = resolved.pop("ask_delay")
+        super().__init__(**resolved)
+
+    def ask(self):
+        time.sleep(self.ask_delay)
+        return super().ask()
+
+    def settings(self):
+        return {**super().settings(), "ask_delay": self.ask_delay}

@@ -3,7 +3,8 @@
 Exit status: 0 done; 2 an error the user can fix (bad option, file, task, evolver
 configuration, a store that cannot be written): one line ``neuroyard: error: ...`` on
 stderr; 3 an internal error (a fault of neuroyard itself): one line naming the crash log
-that holds the traceback; 130 interrupted by Ctrl-C (finished runs are kept).
+that holds the traceback; 130 interrupted by Ctrl-C (finished runs are kept); 1 from
+``check`` when it found a regression (:mod:`.gate`).
 """
 
 from __future__ import annotations
@@ -17,7 +18,7 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any, NoReturn
 
-from neuroyard.harness.cli import compare_command, listing, replay
+from neuroyard.harness.cli import compare_command, gate, listing, replay
 from neuroyard.harness.cli.output import check_output, write_output
 from neuroyard.harness.core import jsonsafe
 from neuroyard.harness.core.batch import compile_network
@@ -193,6 +194,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     replay.add_parser(sub, _positive)
     compare_command.add_parser(sub, _level)
+    gate.add_parsers(sub, _positive, _number)
     return p
 
 
@@ -296,6 +298,7 @@ COMMANDS = {
     "evaluate": _cmd_evaluate,
     "replay": replay.command,
     "compare": compare_command.command,
+    **gate.COMMANDS,
 }
 
 
@@ -316,7 +319,7 @@ def _internal(message: str, crash_log: Path | None) -> int:
 def main(argv: Sequence[str] | None = None) -> int:
     try:
         args = build_parser().parse_args(argv)
-        COMMANDS[args.command](args)
+        status = COMMANDS[args.command](args)
     except NeuroyardError as exc:
         print(f"neuroyard: error: {exc}", file=sys.stderr)
         return 2
@@ -332,7 +335,7 @@ def main(argv: Sequence[str] | None = None) -> int:
             raise
         log = crashlog.write(traceback.format_exc())
         return _internal(f"{type(exc).__name__}: {exc}", log)
-    return 0
+    return status or 0
 
 
 if __name__ == "__main__":

@@ -22,6 +22,12 @@ Timing (``RunRecord.timing``, seconds of wall time): ``evolver`` inside the evol
 ``kernel_load`` loading (or compiling) the task's numba kernels, which happens once per
 process and task setting, on the run's task (built once per run) before the run starts; ``harness`` the
 rest (validation, compilation, evaluation, success tests, bookkeeping); ``wall`` the sum.
+``calibration``: the seconds of one unit of the calibration loop (:mod:`.calibration`) in
+the process that ran the run, timed once per process before its first run and not part of
+``wall``. A run's *relative speed* is ``evaluations / (wall - kernel_load) * calibration``:
+fitness evaluations per calibration unit (the one-off kernel load is left out, it is not
+the run's speed), about the same on a machine twice as slow. Records written before the
+calibration was recorded have no ``calibration`` and so no relative speed.
 """
 
 from __future__ import annotations
@@ -38,7 +44,7 @@ from neuroyard.harness.core.compiled import fingerprint
 from neuroyard.harness.core.errors import NetworkError
 from neuroyard.harness.core.evolver import MAX_BATCH, Evaluation, Outcome
 from neuroyard.harness.core.network import Network, to_dict
-from neuroyard.harness.execution import provenance
+from neuroyard.harness.execution import calibration, provenance
 from neuroyard.harness.execution.seeds import evolver_seed, task_seed
 from neuroyard.harness.records.runs import (
     FAILED,
@@ -209,6 +215,7 @@ def run_one(
     ``watch`` is told of every evolver call (a supervisor bounds their time); ``max_batch``
     is the most networks one ``ask()`` may return; ``memory_limit_mb``, when the process
     runs under a memory limit, is named in the reason of a run that ran out of memory."""
+    calibration_seconds = calibration.seconds()  # once per process, before the run's clock
     wall_start = time.perf_counter()
     record = new_record(spec)
     task = make(spec.task, seed=record.task_seed, **spec.task_settings)  # once per run
@@ -240,6 +247,7 @@ def run_one(
         "evolver": clock.seconds,
         "kernel_load": kernel_load,
         "harness": wall - clock.seconds - kernel_load,
+        "calibration": calibration_seconds,
     }
     return record
 
