@@ -201,3 +201,16 @@ def test_a_figure_under_a_stated_budget_needs_that_budget():
     assert figure.mismatches({}, {}, {"budget": 5000}) == []
     assert figure.mismatches({}, {}, {"budget": 10_000}) == ["run.budget=10000 (published: 5000)"]
     assert figure.mismatches({}, {}) == ["run.budget not recorded (published: 5000)"]
+
+
+def test_welch_is_not_run_on_two_runs_without_spread():
+    # the case a new user met: 2 runs with equal evaluations gave "p 6.2e-08" against the
+    # published mean (Stanley & Miikkulainen 2002 sec. 4.2: 4,755, sd 2,553, 100 runs);
+    # with no spread the measured variance cannot be estimated, so no test is run
+    rows = report.build([record(0, True, 3000), record(1, True, 3000)])
+    mean = next(c for c in rows[0].comparisons if c.metric == "mean_evaluations")
+    assert mean.p_value is None and mean.test == "not run: no spread"
+    text = renderers.render(rows, "text")
+    line = next(x for x in text.splitlines() if "mean_evaluations" in x)
+    assert "not run: no spread" in line and "e-0" not in line
+    assert welch_p_value(3000, 0.0, 2, 4755, 2553, 100) is None

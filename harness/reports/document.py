@@ -65,8 +65,11 @@ def ratio(value: float | None) -> str:
 
 
 def p_value(value: float | None, test: str) -> str:
-    """A p-value to two significant digits with the test's name; :data:`DASH` for None."""
-    return DASH if value is None else f"{value:.2g} ({test})"
+    """A p-value to two significant digits with the test's name; for a test not run, why
+    (``test`` starts with "not run"), else :data:`DASH`."""
+    if value is None:
+        return test if test.startswith("not run") else DASH
+    return f"{value:.2g} ({test})"
 
 
 @dataclass(frozen=True)

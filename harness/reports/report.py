@@ -24,7 +24,13 @@ from dataclasses import asdict, dataclass, field
 from typing import Any
 
 from neuroyard.harness.records.runs import FAILED, RunRecord
-from neuroyard.harness.reports.stats import GroupSummary, fisher_p_value, summarize, welch_p_value
+from neuroyard.harness.reports.stats import (
+    GroupSummary,
+    fisher_p_value,
+    summarize,
+    welch_not_run,
+    welch_p_value,
+)
 from neuroyard.reference.published import figures_for
 from neuroyard.tasks import Metric, declared_metrics
 
@@ -121,8 +127,11 @@ def _test(metric: str, published: Mapping[str, float], s: GroupSummary) -> tuple
     if mean is None or sd is None:
         return None, ""
     solved_published = int(runs - published["failures"])
+    reason = welch_not_run(sd, s.solved, published[sd_key], solved_published)
+    if reason:
+        return None, reason
     p = welch_p_value(mean, sd, s.solved, published[metric], published[sd_key], solved_published)
-    return p, "Welch t" if p is not None else ""
+    return p, "Welch t"
 
 
 def _comparisons(records: Sequence[RunRecord], s: GroupSummary) -> tuple[Comparison, ...]:

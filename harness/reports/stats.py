@@ -40,11 +40,22 @@ def welch_p_value(
     """Two-sided p-value of Welch's t-test that two samples, each given by its mean, standard
     deviation (n - 1 divisor) and size, come from populations with the same mean
     (scipy.stats.ttest_ind_from_stats with unequal variances). ``None`` when a sample has
-    fewer than two members or both deviations are zero (the test is undefined)."""
-    if n_a < 2 or n_b < 2 or (sd_a == 0.0 and sd_b == 0.0):
+    fewer than two members or no spread: its variance cannot then be estimated, and the test
+    would rest on the other sample alone (:func:`welch_not_run` says which)."""
+    if welch_not_run(sd_a, n_a, sd_b, n_b):
         return None
     result = ttest_ind_from_stats(mean_a, sd_a, n_a, mean_b, sd_b, n_b, equal_var=False)
     return float(result.pvalue)
+
+
+def welch_not_run(sd_a: float, n_a: int, sd_b: float, n_b: int) -> str:
+    """Why Welch's test cannot be run on these samples (empty: it can): a sample of fewer
+    than 2 runs, or one with no spread."""
+    if n_a < 2 or n_b < 2:
+        return "not run: n < 2"
+    if sd_a == 0.0 or sd_b == 0.0:
+        return "not run: no spread"
+    return ""
 
 
 def fisher_p_value(successes_a: int, trials_a: int, successes_b: int, trials_b: int) -> float:
