@@ -459,19 +459,15 @@ def _ranges(indices: Sequence[int]) -> str:
 # --- the command line ------------------------------------------------------------------
 
 
-def _probability(text: str) -> float:
-    try:
-        value = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
-    if not 0.0 < value < 1.0:
-        raise argparse.ArgumentTypeError(f"must lie between 0 and 1 (exclusive), got {text}")
-    return value
-
-
-def add_parsers(sub: Any, positive: Callable[[str], int], number: Callable[..., Any]) -> None:
+def add_parsers(
+    sub: Any,
+    positive: Callable[[str], int],
+    number: Callable[..., Any],
+    level: Callable[[str], float],
+) -> None:
     """Register ``baseline`` and ``check`` on the command line's subparsers; ``positive``
-    parses a whole number of at least 1, ``number(float)`` a finite number of at least 0."""
+    parses a whole number of at least 1, ``number(float)`` a finite number of at least 0,
+    ``level`` a significance level."""
     b = sub.add_parser("baseline", help="write a store's runs and figures as a baseline file")
     b.add_argument("--store", type=Path, default=DEFAULT_PATH, help="results store file")
     b.add_argument("-o", "--output", type=Path, required=True, help="baseline file to write")
@@ -486,7 +482,7 @@ def add_parsers(sub: Any, positive: Callable[[str], int], number: Callable[..., 
     c.add_argument("--workers", type=positive, default=1, help="parallel worker processes")
     c.add_argument(
         "--alpha",
-        type=_probability,
+        type=level,
         default=ALPHA,
         help=f"significance level after Holm's correction (default {ALPHA:g})",
     )

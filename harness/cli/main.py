@@ -194,7 +194,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     replay.add_parser(sub, _positive)
     compare_command.add_parser(sub, _level)
-    gate.add_parsers(sub, _positive, _number)
+    gate.add_parsers(sub, _positive, _number, _level)
     return p
 
 
