@@ -1,5 +1,6 @@
-"""The maze tasks: protocol of Lehman & Stanley 2011 (reference/SOURCES.md: lehman2011;
-maze protocol), the radar's geometry, and that our hard maze traps the straight route."""
+"""The maze tasks: the protocol of Lehman & Stanley 2011
+(reference/SOURCES.md: lehman2011; maze protocol), the radar's geometry, and that our hard
+maze traps the straight route."""
 
 from __future__ import annotations
 

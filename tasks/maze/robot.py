@@ -28,8 +28,8 @@ import numpy as np
 from neuroyard.harness.core.batch import CompiledBatch, member
 from neuroyard.harness.core.compiled import CompiledNetwork, new_state, reset, step
 
-# Directions of the rangefinders relative to the heading (reference/SOURCES.md:
-# lehman2011; maze robot: recalled, MEMORY-medium).
+# Directions of the rangefinders relative to the heading, recalled (MEMORY-medium)
+# (reference/SOURCES.md: lehman2011; maze robot).
 RANGEFINDER_ANGLES = np.radians(np.array([-90.0, -45.0, 0.0, 45.0, 90.0, 180.0]))
 RADAR_SLICES = 4  # front, right, back, left (lehman2011; maze robot: order MEMORY-medium)
 N_INPUTS = RANGEFINDER_ANGLES.shape[0] + RADAR_SLICES

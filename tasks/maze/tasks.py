@@ -115,12 +115,16 @@ class MazeTask(Task):
             id=self.id,
             inputs=N_INPUTS,
             outputs=2,
-            fitness=f"{maze.diagonal:g} (the arena's diagonal) - final distance to the goal, "
-            "at least 0",
+            fitness=f"{maze.diagonal:g} (the arena's diagonal) - distance to the goal after "
+            f"{maze.steps} steps (400 steps: from memory), at least 0",
             success=f"the robot ends within {GOAL_RADIUS:g} units of the goal "
             "(reference/SOURCES.md: lehman2011; maze protocol)",
             default_budget=250_000,
-            sources=(LEHMAN_2011, f"{self.description} (maze of ours, {self.maze_file}.toml)"),
+            sources=(
+                LEHMAN_2011,
+                "the published robot's bias input is the network's bias node here",
+                f"{self.description} (maze of ours, {self.maze_file}.toml)",
+            ),
             max_fitness=maze.diagonal,
             min_fitness=0.0,
             behaviour_size=2,
