@@ -4,7 +4,7 @@
 |-----------------|----------------------|-------------------------------------------------------|
 | maze-open-v1    | mazes/open.toml      | an arena without inner walls (sanity)                 |
 | maze-medium-v1  | mazes/medium.toml    | two staggered walls: an S-shaped route                |
-| maze-hard-v1    | mazes/hard.toml      | the straight route to the goal ends in a closed cup   |
+| maze-hard-v1    | mazes/hard.toml      | the straight route to the goal ends at a long wall    |
 
 The mazes are ours (the published maps exist only as figures); the robot and the protocol
 follow (reference/SOURCES.md: lehman2011; maze robot; maze protocol). Fitness =
@@ -162,6 +162,6 @@ class HardMaze(MazeTask):
     id = "maze-hard-v1"
     maze_file = "hard"
     description = (
-        "deceptive: the straight route to the goal ends in a closed cup; the way round "
-        "first leads away from the goal"
+        "deceptive: the straight route to the goal ends at a long wall; the way round "
+        "leads away from the goal until its last stretch"
     )
