@@ -86,18 +86,24 @@ def test_a_fitness_outside_the_bounds_is_a_fault_of_the_task():
         bound_fitness([Evaluation(3.0), Evaluation(17.0)], "xor-v2", 0.0, 16.0, 4)
 
 
-def identity_output(inputs: int) -> Network:
-    """Every input feeds an identity output with bias 100 (version 1 of XOR scored 155,236)."""
-    nodes = [Node(k, "input") for k in range(inputs)] + [Node(inputs, "output", "identity", 100.0)]
-    return Network(tuple(nodes), tuple(Connection(k, inputs, 1.0) for k in range(inputs)))
-
-
-def overflowing(inputs: int) -> Network:
-    """Valid weights near 1e308 whose sums overflow: the output is NaN on every step."""
+def identity_output(inputs: int, outputs: int) -> Network:
+    """Every input feeds each identity output with bias 100 (version 1 of XOR scored
+    155,236)."""
     nodes = [Node(k, "input") for k in range(inputs)]
-    nodes += [Node(inputs, "bias"), Node(inputs + 1, "hidden"), Node(inputs + 2, "output")]
-    b, h, o = inputs, inputs + 1, inputs + 2
-    conns = [Connection(b, h, 1e308), Connection(h, o, 1e308), Connection(h, o, -1e308)]
+    nodes += [Node(inputs + j, "output", "identity", 100.0) for j in range(outputs)]
+    conns = [Connection(k, inputs + j, 1.0) for k in range(inputs) for j in range(outputs)]
+    return Network(tuple(nodes), tuple(conns))
+
+
+def overflowing(inputs: int, outputs: int) -> Network:
+    """Valid weights near 1e308 whose sums overflow: every output is NaN on every step."""
+    nodes = [Node(k, "input") for k in range(inputs)]
+    b, h = inputs, inputs + 1
+    nodes += [Node(b, "bias"), Node(h, "hidden")]
+    nodes += [Node(h + 1 + j, "output") for j in range(outputs)]
+    conns = [Connection(b, h, 1e308)]
+    for j in range(outputs):
+        conns += [Connection(h, h + 1 + j, 1e308), Connection(h, h + 1 + j, -1e308)]
     return Network(tuple(nodes), tuple(conns))
 
 
@@ -106,7 +112,7 @@ def overflowing(inputs: int) -> Network:
 def test_evaluate_gives_finite_fitness_within_bounds(task_id, build, tmp_path, capsys):
     spec = tasks.make(task_id).spec
     path = tmp_path / "net.json"
-    path.write_text(dumps(build(spec.inputs)))
+    path.write_text(dumps(build(spec.inputs, spec.outputs)))
     assert main(["evaluate", str(path), "--task", task_id]) == 0
     out = capsys.readouterr().out
 
