@@ -48,6 +48,21 @@ def test_a_behaviour_is_not_its_own_neighbour_but_an_equal_one_is():
     assert sparseness(alone, np.empty((0, 2)), 15, squared=False).tolist() == [0.0]
 
 
+def test_sparseness_equals_a_brute_force_search_over_all_pairs():
+    # every distance by numpy broadcasting, sorted in full: independent of the k-d tree
+    rng = np.random.default_rng(5)
+    points = rng.normal(size=(250, 2)).round(1)  # rounded, so equal behaviours occur
+    archive = rng.normal(size=(3000, 2)).round(1)
+    within = np.linalg.norm(points[:, None] - points[None], axis=2)
+    np.fill_diagonal(within, np.inf)
+    outside = np.linalg.norm(points[:, None] - archive[None], axis=2)
+    nearest = np.sort(np.hstack([within, outside]), axis=1)[:, :15]
+    got = sparseness(points, archive, 15, squared=False)
+    assert got == pytest.approx(nearest.mean(axis=1), rel=1e-12, abs=1e-12)
+    got = sparseness(points, archive, 15, squared=True)
+    assert got == pytest.approx((nearest**2).mean(axis=1), rel=1e-12, abs=1e-12)
+
+
 def test_archive_growth_and_threshold_adaptation_follow_a_hand_worked_sequence():
     # window of 4 evaluations (2 generations of 2); nothing added halves the threshold,
     # more than 1 added doubles it; k = 1, so the score is the distance to the nearest
