@@ -25,6 +25,7 @@ def test_every_config_field_is_declared_with_a_source():
             tag in p.source
             for tag in (
                 "VERIFIED-QUOTE",
+                "VERIFIED)",
                 "SECONDARY-NOTES",
                 "MEMORY-",
                 "common practice",

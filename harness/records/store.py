@@ -55,7 +55,7 @@ from neuroyard.harness.core.errors import EvolverError, StoreError
 from neuroyard.harness.core.evolver_registry import EvolverSpec, canonical_config
 from neuroyard.harness.records.runs import GenerationLog, RunRecord, record_key
 
-SCHEMA_VERSION = 4
+SCHEMA_VERSION = 5
 READABLE_VERSIONS = tuple(str(v) for v in range(1, SCHEMA_VERSION + 1))  # older ones upgrade
 DEFAULT_PATH = Path("results") / "neuroyard.db"
 CLAIM_EXPIRY = 60.0  # s without a heartbeat after which a claim is void (ours)
@@ -119,7 +119,9 @@ def _statements(*sql: str) -> Callable[[sqlite3.Connection], None]:
 
 
 def _rekey(db: sqlite3.Connection) -> None:
-    """Version 3 -> 4: every run keyed by its resolved values, under current option names."""
+    """Every run keyed by its resolved values, under current option names: version 3 -> 4
+    (keys from resolved values), and 4 -> 5 (NEAT's selection and novelty options, whose
+    defaults every NEAT run ran under, enter each NEAT run's effective configuration)."""
     taken: set[str] = set()
     rows = db.execute("SELECT id, record FROM runs ORDER BY id").fetchall()
     for run_id, text in rows:
@@ -157,6 +159,7 @@ _UPGRADES: dict[int, Callable[[sqlite3.Connection], None]] = {
         _CLAIMS,
     ),
     3: _rekey,
+    4: _rekey,
 }
 
 

@@ -58,18 +58,36 @@ class NeatConfig:
     initial_hidden: int
     random_max_hidden: int
     random_link_prob: float
+    selection: str
+    novelty_k: int
+    novelty_distance: str
+    novelty_threshold: float
+    novelty_window: int
+    novelty_lower_factor: float
+    novelty_raise_factor: float
+    novelty_raise_above: int
 
     def as_dict(self) -> dict[str, Any]:
         return {f.name: getattr(self, f.name) for f in fields(self)}
 
 
+def _tables(name: str) -> dict[str, Any]:
+    return tomllib.loads((resources.files(__package__) / name).read_text())
+
+
 @cache
-def option_table() -> OptionTable:
+def option_table(owner: str = "evolver neat", variant: str | None = None) -> OptionTable:
     """Every key of ``defaults.toml`` as an option: default, range or choices, source, and
-    the former names it is still read under (``former_names``)."""
-    text = (resources.files(__package__) / "defaults.toml").read_text()
+    the former names it is still read under (``former_names``).
+
+    ``variant``: a TOML file beside it (``novelty_defaults.toml``) whose tables replace the
+    ``value`` and ``source`` of some keys: a registered variant of NEAT that only changes
+    defaults. A key of the variant that ``defaults.toml`` lacks is a ``KeyError``."""
+    tables = _tables("defaults.toml")
+    for name, changed in (_tables(variant) if variant else {}).items():
+        tables[name] = {**tables[name], "value": changed["value"], "source": changed["source"]}
     return OptionTable(
-        "evolver neat",
+        owner,
         (
             Option(
                 name,
@@ -80,7 +98,7 @@ def option_table() -> OptionTable:
                 choices=tuple(table.get("choices", ())),
                 aliases=tuple(table.get("former_names", ())),
             )
-            for name, table in tomllib.loads(text).items()
+            for name, table in tables.items()
         ),
     )
 

@@ -7,6 +7,9 @@ import random
 from collections.abc import Sequence
 from typing import Any
 
+import numpy as np
+
+from neuroyard.harness.core.errors import SettingError
 from neuroyard.harness.core.evolver import Evaluation, Problem
 from neuroyard.harness.core.network import Network
 
@@ -15,6 +18,7 @@ from .decode import Decoder
 from .genome import Genome, Layout
 from .initial import initial_population
 from .innovation import InnovationTracker
+from .novelty import NoveltyArchive
 from .reproduction import Breeder, allot_offspring, survivors
 from .species import Speciator
 
@@ -27,6 +31,11 @@ class NeatEvolver:
     an unknown key or a bad value raises ``ValueError`` naming it.
     ``config`` holds the full configuration in effect. Randomness comes only from the seed
     given to :meth:`start`, so a run is reproducible.
+
+    ``selection`` chooses the score that speciation, sharing and reproduction use: the
+    task's fitness, novelty (sparseness of the behaviour, :mod:`.novelty`; the task must
+    give a behaviour with every evaluation, else :meth:`start` or :meth:`tell` raises a
+    ``SettingError`` naming the option) or a random number from the run's generator.
     """
 
     options = option_table()
@@ -36,10 +45,12 @@ class NeatEvolver:
         self.generation = 0
         self.population: list[Genome] = []
         self._batch: list[Network] | None = None
+        self.archive: NoveltyArchive | None = None
 
     def start(self, problem: Problem, seed: int) -> None:
         cfg = self.config
         self.rng = random.Random(seed)
+        self.archive = self._archive(problem)
         self.layout = Layout.for_problem(problem.inputs, problem.outputs)
         self.tracker = InnovationTracker(next_node=self.layout.first_free_id)
         self.decoder = Decoder(self.layout, "recurrent" if cfg.recurrent else "feedforward")
@@ -59,20 +70,21 @@ class NeatEvolver:
         return self._batch
 
     def tell(self, evaluations: Sequence[Evaluation]) -> None:
-        """Fitness of the last batch, in order; breeds and speciates the next generation.
+        """Results of the last batch, in order; breeds and speciates the next generation.
 
         Fewer evaluations than genomes come only with the batch the harness cut at the end
-        of the budget: their fitness is recorded and no further generation is bred (none
+        of the budget: their score is recorded and no further generation is bred (none
         would be evaluated)."""
         if len(evaluations) > len(self.population):
             raise ValueError(
                 f"NeatEvolver: tell() got {len(evaluations)} evaluations "
                 f"for a generation of {len(self.population)}"
             )
-        for genome, result in zip(self.population, evaluations, strict=False):
+        for result in evaluations:
             if not math.isfinite(result.fitness):
                 raise ValueError(f"NeatEvolver: fitness {result.fitness!r} is not finite")
-            genome.fitness = float(result.fitness)
+        for genome, score in zip(self.population, self._scores(evaluations), strict=False):
+            genome.fitness = score
         if len(evaluations) == len(self.population):
             self._next_generation()
 
@@ -81,9 +93,16 @@ class NeatEvolver:
         return self.config.as_dict()
 
     def stats(self) -> dict[str, float]:
-        """Figures of the current generation: species, genome sizes, threshold, innovations."""
+        """Figures of the current generation: species, genome sizes, threshold, innovations;
+        under novelty selection also the archive's size and threshold."""
         pop = self.population
         n = len(pop)
+        novelty = {}
+        if self.archive is not None:
+            novelty = {
+                "novelty_archive": float(len(self.archive)),
+                "novelty_threshold": self.archive.threshold,
+            }
         return {
             "generation": float(self.generation),
             "species": float(len(self.speciator.species)),
@@ -92,7 +111,46 @@ class NeatEvolver:
             "mean_enabled_connections": sum(g.enabled_connections for g in pop) / n,
             "mean_hidden_nodes": sum(len(g.hidden) for g in pop) / n,
             "innovations": float(self.tracker.next_innovation),
+            **novelty,
         }
+
+    def _archive(self, problem: Problem) -> NoveltyArchive | None:
+        """The novelty archive under novelty selection (the task must define behaviours)."""
+        cfg = self.config
+        if cfg.selection != "novelty":
+            return None
+        if problem.behaviour_size is None:
+            raise SettingError(
+                f"{self.options.owner}: option selection = 'novelty' needs behaviours, "
+                f"and task {problem.task!r} defines none"
+            )
+        return NoveltyArchive(
+            problem.behaviour_size,
+            cfg.novelty_threshold,
+            cfg.novelty_window,
+            cfg.novelty_lower_factor,
+            cfg.novelty_raise_factor,
+            cfg.novelty_raise_above,
+        )
+
+    def _scores(self, evaluations: Sequence[Evaluation]) -> list[float]:
+        """The score of each evaluation under the ``selection`` option."""
+        cfg = self.config
+        if cfg.selection == "random":
+            return [self.rng.random() for _ in evaluations]
+        if self.archive is None or not evaluations:
+            return [float(e.fitness) for e in evaluations]
+        size = self.archive.points.shape[1]
+        for k, e in enumerate(evaluations):
+            if e.behaviour is None or len(e.behaviour) != size:
+                given = "none" if e.behaviour is None else f"{len(e.behaviour)} values"
+                raise SettingError(
+                    f"{self.options.owner}: option selection = 'novelty' needs a behaviour "
+                    f"of {size} values with every evaluation; evaluation {k} has {given}"
+                )
+        behaviours = np.array([e.behaviour for e in evaluations], dtype=np.float64)
+        squared = cfg.novelty_distance == "squared_euclidean"
+        return self.archive.score(behaviours, cfg.novelty_k, squared).tolist()
 
     def _next_generation(self) -> None:
         cfg = self.config
