@@ -33,7 +33,7 @@ from neuroyard.harness.reports import gate
 from neuroyard.harness.reports.gate import GroupRuns, RunFigures, Thresholds
 
 HERE = Path(__file__).parent
-COMMITTED_XOR = HERE.parent / "results" / "neat_xor" / "xor.db"  # written before calibration
+COMMITTED_OLD = HERE.parent / "results" / "pole" / "spv.sqlite"  # written before calibration
 SLOWED = "plugins_for_tests:SlowedNeat"  # the reference NEAT with a pause in ask()
 CAMPAIGN = ["--task", "xor-v2", "--seed", "1", "--budget", "20000", "--workers", "2"]
 BASELINE_RUNS = 12
@@ -149,14 +149,14 @@ def test_relative_speed_is_the_formula_on_the_recorded_figures(baseline):
 
 
 def test_a_record_without_calibration_has_no_relative_speed(capsys, tmp_path):
-    with ResultStore(COMMITTED_XOR, write=False) as store:
+    with ResultStore(COMMITTED_OLD, write=False) as store:
         old = next(store.records(with_log=False))
     assert "calibration" not in old.timing and gate.relative_speed(old) is None
     path = tmp_path / "old.json"
-    assert run_cli(capsys, "baseline", "--store", str(COMMITTED_XOR), "-o", str(path))[0] == 0
+    assert run_cli(capsys, "baseline", "--store", str(COMMITTED_OLD), "-o", str(path))[0] == 0
     figures = json.loads(path.read_text())["groups"][0]["run_figures"]
     assert figures and all(f["relative_speed"] is None for f in figures)
-    code, out, _ = run_cli(capsys, "check", "--baseline", str(path), "--store", str(COMMITTED_XOR))
+    code, out, _ = run_cli(capsys, "check", "--baseline", str(path), "--store", str(COMMITTED_OLD))
     assert code == 0, out
     (note,) = lines_with(out, "not tested: relative speed")
     assert "the baseline's and the fresh runs have no relative speed" in note
@@ -305,7 +305,7 @@ def test_a_bad_baseline_file_is_one_line_and_exit_2(capsys, tmp_path, content, s
     path = tmp_path / "bad.json"
     path.write_text(content)
     code, out, err = run_cli(
-        capsys, "check", "--baseline", str(path), "--store", str(COMMITTED_XOR)
+        capsys, "check", "--baseline", str(path), "--store", str(COMMITTED_OLD)
     )
     assert code == 2 and out == ""
     (line,) = err.splitlines()
@@ -322,11 +322,11 @@ def test_a_missing_baseline_file_is_one_line_and_exit_2(capsys, tmp_path):
 
 def test_a_store_without_the_baselines_groups_is_exit_2(baseline, capsys):
     code, _, err = run_cli(
-        capsys, "check", "--baseline", str(baseline), "--store", str(COMMITTED_XOR)
+        capsys, "check", "--baseline", str(baseline), "--store", str(COMMITTED_OLD)
     )
     assert code == 2
     (line,) = err.splitlines()
-    assert str(COMMITTED_XOR) in line and str(baseline) in line and SLOWED in line, line
+    assert str(COMMITTED_OLD) in line and str(baseline) in line and SLOWED in line, line
 
 
 def _rwg(store: Path, *params: str) -> None:
