@@ -13,7 +13,7 @@ import json
 import tomllib
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
-from functools import cached_property
+from functools import cache, cached_property
 from importlib.metadata import entry_points
 from pathlib import Path
 from typing import Any
@@ -78,13 +78,20 @@ def canonical_config(name: str, config: Mapping[str, Any]) -> dict[str, Any]:
     """``config`` with every former option name replaced by the current one (stored records
     written before a rename); unchanged when the evolver is not installed or declares no
     options."""
-    try:
-        table = option_table(load_factory(name))
-    except EvolverError:
-        return dict(config)
+    table = _declared_options(name)
     if table is None:
         return dict(config)
     return {table.canonical(key): value for key, value in config.items()}
+
+
+@cache
+def _declared_options(name: str) -> OptionTable | None:
+    """The option table of evolver ``name``, found once per process (reading a store
+    renames the options of every record, and finding a factory scans the entry points)."""
+    try:
+        return option_table(load_factory(name))
+    except EvolverError:
+        return None
 
 
 def available() -> dict[str, str]:
