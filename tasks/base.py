@@ -63,7 +63,9 @@ class TaskSpec:
     meaning and scaling, ``actions`` the outputs in output-node order with how each is
     turned into an action, ``output_rule`` how an output outside its meaningful range (or
     non-finite) is treated. ``metrics``: the extra figures the success test reports
-    (:class:`Metric`).
+    (:class:`Metric`). ``facts``: figures that describe this task instance under its
+    settings (a maze's deception score), by name; every run record keeps them
+    (``RunRecord.task_facts``) so that outcomes can be set against them.
     """
 
     id: str
@@ -82,6 +84,7 @@ class TaskSpec:
     actions: tuple[str, ...] = ()
     output_rule: str = ""
     metrics: tuple[Metric, ...] = ()
+    facts: Mapping[str, float] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)

@@ -50,6 +50,7 @@ from neuroyard.harness.records.runs import (
     FAILED,
     SOLVED,
     UNSOLVED,
+    BehaviourSample,
     GenerationLog,
     RunRecord,
     RunSpec,
@@ -220,16 +221,18 @@ def run_one(
     record = new_record(spec)
     task = make(spec.task, seed=record.task_seed, **spec.task_settings)  # once per run
     kernel_load = load_kernels(task)
+    record.task_facts = dict(task.spec.facts)
     budget = record.budget
     seed = record.seed
     clock = _Clock(watch or _Unwatched(), memory_limit_mb)
     evolver = None
+    behaviours = BehaviourSample()
     try:
         evolver = clock.call("building the evolver", None, spec.evolver.build)
         clock.call("start()", None, evolver.start, task.problem(budget), seed)
         if hasattr(evolver, "settings"):
             record.evolver_settings = _settings(evolver, clock)
-        _generations(evolver, task, budget, record, clock, max_batch)
+        _generations(evolver, task, budget, record, clock, max_batch, behaviours)
     except RunFault as fault:
         record.status = FAILED
         record.failure = str(fault)
@@ -239,6 +242,7 @@ def run_one(
             "the run ran out of memory while the harness evaluated generation "
             f"{record.generations}{clock.memory_note}"
         )
+    record.behaviours = behaviours.points
     if evolver is not None and hasattr(evolver, "stop"):
         _stop(evolver, clock, record)
     wall = time.perf_counter() - wall_start
@@ -253,7 +257,13 @@ def run_one(
 
 
 def _generations(
-    evolver: Any, task: Any, budget: int, record: RunRecord, clock: _Clock, max_batch: int
+    evolver: Any,
+    task: Any,
+    budget: int,
+    record: RunRecord,
+    clock: _Clock,
+    max_batch: int,
+    behaviours: BehaviourSample,
 ) -> None:
     """The generation loop of :func:`run_one`: until solved or the budget is spent."""
     task_spec = task.spec
@@ -281,6 +291,8 @@ def _generations(
             task_spec.max_fitness,
             generation,
         )
+        for result in results:
+            behaviours.add(result.behaviour)
         record.evaluations += len(batch)
         record.generations += 1
         clock.watch.progress(record.generations, record.evaluations)

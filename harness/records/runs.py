@@ -15,6 +15,8 @@ from typing import Any
 from neuroyard.harness.core.evolver_registry import EvolverSpec
 
 SOLVED, UNSOLVED, FAILED = "solved", "unsolved", "failed"
+BEHAVIOUR_SAMPLE = 500  # most behaviour descriptors a run record keeps
+BEHAVIOUR_DECIMALS = 3  # decimals a kept descriptor is rounded to (a picture, not identity)
 
 
 def run_key(
@@ -119,6 +121,11 @@ class RunRecord:
     ``success_details`` the details of its success test (with its ``rank``).
     ``evolver_settings`` is the evolver's effective configuration (defaults included) when
     it offers ``settings()``. ``timing`` holds wall, evolver and harness seconds.
+    ``task_facts``: the figures that describe the task instance the run met
+    (:attr:`~neuroyard.tasks.base.TaskSpec.facts`, such as a maze's deception score).
+    ``behaviours``: for a task with behaviour descriptors, a sample of the descriptors of
+    the run's evaluations in evaluation order, evenly thinned to at most
+    :data:`BEHAVIOUR_SAMPLE` points (:class:`BehaviourSample`); empty otherwise.
     """
 
     evolver: str
@@ -146,6 +153,8 @@ class RunRecord:
     timing: dict[str, float] = field(default_factory=dict)
     versions: dict[str, str | None] = field(default_factory=dict)
     host: str = ""
+    task_facts: dict[str, float] = field(default_factory=dict)
+    behaviours: list[list[float]] = field(default_factory=list)
 
     @property
     def solved(self) -> bool:
@@ -161,3 +170,27 @@ class RunRecord:
         data.pop("solved", None)
         data["log"] = [GenerationLog(**g) for g in data.get("log", [])]
         return cls(**data)
+
+
+class BehaviourSample:
+    """The behaviour descriptors of a run's evaluations, thinned evenly to at most ``cap``.
+
+    It keeps the descriptor of every evaluation whose index (0-based, in evaluation order)
+    is a multiple of a stride; the stride starts at 1 and doubles, dropping every other
+    kept point, whenever more than ``cap`` points are kept. So the sample spreads over the
+    whole run whatever its length. Values are rounded to :data:`BEHAVIOUR_DECIMALS`."""
+
+    def __init__(self, cap: int = BEHAVIOUR_SAMPLE) -> None:
+        self.cap = cap
+        self.stride = 1
+        self.seen = 0
+        self.points: list[list[float]] = []
+
+    def add(self, behaviour: tuple[float, ...] | None) -> None:
+        """Count one evaluation and keep its descriptor when its index is on the stride."""
+        if behaviour is not None and self.seen % self.stride == 0:
+            self.points.append([round(float(v), BEHAVIOUR_DECIMALS) for v in behaviour])
+            if len(self.points) > self.cap:
+                self.points = self.points[::2]
+                self.stride *= 2
+        self.seen += 1
