@@ -14,6 +14,7 @@ File layout (one file per task family)::
     source = "Stanley & Miikkulainen 2002, Evolutionary Computation 10(2), sec. 4.2"
     provenance = "VERIFIED-QUOTE"      # see PROVENANCE
     note = "..."                       # optional
+    not_comparable = "..."             # optional: why no run of ours is comparable with it
     protocol = { "evolver.population_size" = 150, "task.start_angle" = 0.0175 }
     values = { mean_evaluations = 4755, sd_evaluations = 2553 }
 
@@ -80,6 +81,7 @@ class ReferenceFigure:
     values: Mapping[str, float]
     protocol: Mapping[str, Any] = field(default_factory=dict)
     note: str = ""
+    not_comparable: str = ""
 
     @property
     def from_memory(self) -> bool:
@@ -88,7 +90,9 @@ class ReferenceFigure:
 
     @property
     def may_gate(self) -> bool:
-        return self.provenance in GATE_PROVENANCE
+        """True when the figure may decide a pass/fail check: checked against a text and
+        measured on the same task (not only a figure of the same phenomenon)."""
+        return self.provenance in GATE_PROVENANCE and not self.not_comparable
 
     @property
     def full_protocol(self) -> dict[str, Any]:
@@ -113,10 +117,11 @@ class ReferenceFigure:
         Keys are ``task.<setting>`` (the run's effective task settings), ``evolver.<option>``
         (its effective evolver configuration) and ``run.<name>`` (``run_settings``: the
         effective ``budget``). A setting the run does not record counts as a mismatch:
-        like must be compared with like.
+        like must be compared with like. A figure that is ``not_comparable`` (measured on
+        another instance of the task, such as a published maze map) always lists why first.
         """
         scopes = {"task": task_settings, "evolver": evolver_config, "run": run_settings or {}}
-        out = []
+        out = [self.not_comparable] if self.not_comparable else []
         for key, expected in self.full_protocol.items():
             scope, _, name = key.partition(".")
             actual = scopes[scope].get(name)
@@ -161,6 +166,7 @@ def _parse(doc: Mapping[str, Any], where: str) -> list[ReferenceFigure]:
                 values={key: float(v) for key, v in item["values"].items()},
                 protocol=dict(item.get("protocol", {})),
                 note=item.get("note", ""),
+                not_comparable=item.get("not_comparable", ""),
             )
         )
     return out

@@ -12,7 +12,8 @@ The harness calls:
   (episodes run) is counted apart from evaluations. It must be deterministic: the harness
   never tests an identical network twice in a run.
 
-Any randomness of the task itself comes from the ``seed`` it is built with; the harness
+Any randomness of the task itself comes from the ``seed`` it is built with (positional, so
+that a task may have a setting called ``seed``, such as the maze a generated task draws); the harness
 derives that seed from (task, run index), so every evolver meets the same task instances.
 """
 
@@ -101,8 +102,9 @@ class Task(ABC):
 
     id: ClassVar[str]
     options: ClassVar[tuple[Option, ...]] = ()
+    needs: ClassVar[tuple[str, ...]] = ()  # settings with no default that must be given
 
-    def __init__(self, seed: int = 0, **settings: Any) -> None:
+    def __init__(self, seed: int = 0, /, **settings: Any) -> None:
         self.seed = seed
         self.settings: dict[str, Any] = self.option_table().resolve(settings)
         self.check_settings()

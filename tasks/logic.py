@@ -102,7 +102,7 @@ class BooleanTask(Task):
 
     options = (RECURRENT_STEPS,)
 
-    def __init__(self, seed: int = 0, **settings) -> None:
+    def __init__(self, seed: int = 0, /, **settings) -> None:
         super().__init__(seed, **settings)
         self.patterns, self.targets = self.truth_table()
 

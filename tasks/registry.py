@@ -20,6 +20,7 @@ ENTRY_POINT_GROUP = "neuroyard.tasks"
 _ID = re.compile(r"^[a-z0-9][a-z0-9-]*-v\d+$")
 _REGISTRY: dict[str, type[Task]] = {}
 _RETIRED: dict[str, tuple[str, str]] = {}  # old id -> (successor, why it was retired)
+_FORMS: dict[str, tuple[str, str]] = {}  # prefix -> (task id, setting the rest goes to)
 _plugins_loaded = False
 
 
@@ -31,6 +32,24 @@ def register(cls: type[Task]) -> type[Task]:
         raise TaskError(f"task id {cls.id!r} is registered twice")
     _REGISTRY[cls.id] = cls
     return cls
+
+
+def register_form(prefix: str, task_id: str, setting: str) -> None:
+    """Let ``PREFIX:VALUE`` name task ``task_id`` with ``setting = VALUE`` (so
+    ``maze:PATH`` is ``maze-file-v1`` with ``file = PATH``)."""
+    _FORMS[prefix] = (task_id, setting)
+
+
+def parse_task(text: str) -> tuple[str, dict[str, Any]]:
+    """A task as given on the command line: a task id, or ``PREFIX:VALUE`` of a registered
+    form; returns the task id and the settings the form gives."""
+    prefix, sep, value = text.partition(":")
+    if sep and prefix in _FORMS:
+        task_id, setting = _FORMS[prefix]
+        if not value:
+            raise TaskError(f"task {text!r}: nothing after '{prefix}:'")
+        return task_id, {setting: value}
+    return text, {}
 
 
 def retire(old_id: str, successor: str, reason: str) -> None:
@@ -69,9 +88,10 @@ def task_class(task_id: str) -> type[Task]:
         raise TaskError(f"unknown task {task_id!r} (known: {', '.join(task_ids())})") from None
 
 
-def make(task_id: str, seed: int = 0, **settings: Any) -> Task:
-    """Build task ``task_id`` with its task seed and settings (defaults for the rest)."""
-    return task_class(task_id)(seed=seed, **settings)
+def make(task_id: str, seed: int = 0, /, **settings: Any) -> Task:
+    """Build task ``task_id`` with its task seed and settings (defaults for the rest). The
+    task seed is positional, so a task may have a setting called ``seed``."""
+    return task_class(task_id)(seed, **settings)
 
 
 def declared_metrics(task_id: str, settings: Mapping[str, Any]) -> tuple[Metric, ...]:
@@ -85,5 +105,16 @@ def declared_metrics(task_id: str, settings: Mapping[str, Any]) -> tuple[Metric,
 
 
 def specs() -> list[TaskSpec]:
-    """Spec records of all registered tasks at their default settings."""
-    return [make(task_id).spec for task_id in task_ids()]
+    """Spec records of all registered tasks at their default settings (a task that
+    ``needs`` a setting has none at its defaults and is left out: see :func:`needing`)."""
+    return [make(task_id).spec for task_id in task_ids() if not task_class(task_id).needs]
+
+
+def needing() -> dict[str, tuple[str, ...]]:
+    """The registered tasks that need settings given, with the settings they need."""
+    return {t: task_class(t).needs for t in task_ids() if task_class(t).needs}
+
+
+def forms() -> dict[str, tuple[str, str]]:
+    """The registered ``PREFIX:VALUE`` forms: prefix -> (task id, setting)."""
+    return dict(_FORMS)

@@ -22,6 +22,7 @@ from neuroyard.harness.core.activations import NAMES
 from neuroyard.harness.core.batch import compile_network
 from neuroyard.harness.core.network import Connection, Network, Node, dumps
 from neuroyard.harness.execution.runner import RunFault, bound_fitness
+from neuroyard.tasks.maze import shipped_maze
 
 HUGE = 1e300
 values = st.one_of(
@@ -57,9 +58,13 @@ def networks(draw, inputs: int, outputs: int) -> Network:
     return Network(tuple(nodes), tuple(conns), mode)
 
 
+# the settings a task that needs settings is tested with (a shipped maze as a user's file)
+NEEDED = {"maze-file-v1": {"file": str(shipped_maze("medium"))}}
+
+
 @pytest.mark.parametrize("task_id", tasks.task_ids())
 def test_fitness_is_finite_and_within_the_stated_bounds(task_id):
-    task = tasks.make(task_id)
+    task = tasks.make(task_id, **NEEDED.get(task_id, {}))
     spec = task.spec
     high = math.inf if spec.max_fitness is None else spec.max_fitness
 
@@ -110,10 +115,11 @@ def overflowing(inputs: int, outputs: int) -> Network:
 @pytest.mark.parametrize("task_id", tasks.task_ids())
 @pytest.mark.parametrize("build", [identity_output, overflowing], ids=["identity", "overflow"])
 def test_evaluate_gives_finite_fitness_within_bounds(task_id, build, tmp_path, capsys):
-    spec = tasks.make(task_id).spec
+    spec = tasks.make(task_id, **NEEDED.get(task_id, {})).spec
     path = tmp_path / "net.json"
     path.write_text(dumps(build(spec.inputs, spec.outputs)))
-    assert main(["evaluate", str(path), "--task", task_id]) == 0
+    given = [f"--setting={k}={v}" for k, v in NEEDED.get(task_id, {}).items()]
+    assert main(["evaluate", str(path), "--task", task_id, *given]) == 0
     out = capsys.readouterr().out
 
     def refuse(token):

@@ -1,4 +1,4 @@
-"""The shipped mazes are solvable by the robot's disc, and the hard one is deceptive.
+"""The shipped and generated mazes are solvable by the robot's disc; the hard one deceives.
 
 Reference: a grid path search independent of the task's kernels. Free space is computed
 with numpy (every grid point at least the robot's radius from every wall, by the
@@ -16,6 +16,7 @@ import pytest
 from scipy import ndimage
 
 from neuroyard.tasks.maze import load_maze, shipped_maze
+from neuroyard.tasks.maze.generate import CANDIDATES, candidate
 from neuroyard.tasks.maze.robot import RADIUS
 
 
@@ -49,15 +50,26 @@ def greedy_descent(free: np.ndarray, start: tuple[int, int], goal: tuple[int, in
         here = best
 
 
-@pytest.mark.parametrize("name", ["open", "medium", "hard"])
-def test_goal_is_reachable_from_the_start(name):
-    maze = load_maze(shipped_maze(name), RADIUS)
+def assert_reachable(maze) -> None:
     free = free_grid(maze)
     parts, _ = ndimage.label(free)
     start = (round(maze.start[0]), round(maze.start[1]))
     goal = (round(maze.goal[0]), round(maze.goal[1]))
     assert free[start] and free[goal]
     assert parts[start] == parts[goal] != 0
+
+
+@pytest.mark.parametrize("name", ["open", "medium", "hard"])
+def test_goal_is_reachable_from_the_start(name):
+    assert_reachable(load_maze(shipped_maze(name), RADIUS))
+
+
+@pytest.mark.parametrize("size", [1, 2, 3, 4])
+def test_every_generated_candidate_is_solvable(size):
+    """Every candidate maze-gen-v1 draws (so every maze it can give), seeds 0-2."""
+    for seed in range(3):
+        for k in range(CANDIDATES):
+            assert_reachable(candidate(size, seed, k))
 
 
 @pytest.mark.parametrize(("name", "trapped"), [("open", False), ("hard", True)])

@@ -12,10 +12,11 @@ from dataclasses import asdict
 from typing import Any
 
 from neuroyard.harness.core import jsonsafe
+from neuroyard.harness.core.errors import SettingError
 from neuroyard.harness.core.evolver_registry import available, load_factory, option_table
 from neuroyard.harness.core.options import OptionTable
 from neuroyard.tasks import TaskSpec, retired, specs
-from neuroyard.tasks.registry import task_class
+from neuroyard.tasks.registry import forms, make, needing, parse_task, task_class
 
 NETWORK_CONVENTIONS = (
     "networks: the k-th input node gets the k-th input, the k-th output node gives the k-th "
@@ -24,10 +25,17 @@ NETWORK_CONVENTIONS = (
 )
 
 
-def add_parsers(sub: Any) -> None:
-    """Register ``tasks`` and ``evolvers`` on the command line's subparsers."""
+def add_parsers(sub: Any, assignment: Any) -> None:
+    """Register ``tasks`` and ``evolvers`` on the command line's subparsers (``assignment``
+    parses ``KEY=VALUE``)."""
     t = sub.add_parser("tasks", help="list the tasks with interface, criteria, settings, sources")
-    t.add_argument("task", nargs="?", help="one task id: also every setting with its source")
+    t.add_argument(
+        "task", nargs="?", help="one task id or FORM:VALUE: also every setting with its source"
+    )
+    t.add_argument(
+        "--setting", type=assignment, action="append", default=[], metavar="KEY=VALUE",
+        help="a setting of the one task (its spec and facts under that setting)",
+    )  # fmt: skip
     t.add_argument("--format", choices=("text", "json"), default="text")
     e = sub.add_parser("evolvers", help="list the installed evolvers, or one with its options")
     e.add_argument("evolver", nargs="?", help="an evolver name: every option with its source")
@@ -36,9 +44,13 @@ def add_parsers(sub: Any) -> None:
 
 def tasks_command(args: argparse.Namespace) -> None:
     """Print the tasks (all, or ``args.task`` with its settings table)."""
-    if args.task is not None:
-        task_class(args.task)  # an unknown or retired id is a one-line error
-    rows = [s for s in specs() if args.task in (None, s.id)]
+    if args.task is None:
+        if args.setting:
+            raise SettingError("tasks --setting: name the one task the setting is for")
+        rows = specs()
+    else:  # an unknown or retired id, or a setting it has not, is a one-line error
+        task_id, form = parse_task(args.task)
+        rows = [make(task_id, **form, **dict(args.setting)).spec]
     if args.format == "json":
         docs = [{**_spec_json(s), "options": _options(s.id).describe()} for s in rows]
         print(jsonsafe.dumps(docs, indent=2))
@@ -52,6 +64,15 @@ def tasks_command(args: argparse.Namespace) -> None:
         else:
             print(f"  settings: {_joined(s.settings)} (neuroyard tasks {s.id}: their sources)")
     if args.task is None:
+        shorthand = {task_id: prefix for prefix, (task_id, _) in forms().items()}
+        for task_id, settings in needing().items():
+            form = (
+                f", or --task {shorthand[task_id]}:{settings[0].upper()}"
+                if task_id in shorthand
+                else ""
+            )
+            print(f"\n{task_id}: needs {', '.join(settings)} (neuroyard tasks {task_id} "
+                  f"--setting {settings[0]}=...{form})")  # fmt: skip
         for old, (successor, reason) in sorted(retired().items()):
             print(f"\n{old}: retired, use {successor} ({reason})")
 
@@ -107,6 +128,8 @@ def _print_spec(s: TaskSpec) -> None:
     for m in s.metrics:
         unit = f", {m.unit}" if m.unit else ""
         print(f"  metric {m.name} ({m.better} is better{unit}): {m.description}")
+    if s.facts:
+        print("  facts:   " + ", ".join(f"{k} {v:.4g}" for k, v in s.facts.items()))
     for src in s.sources:
         print(f"  source:  {src}")
 

@@ -45,7 +45,7 @@ from neuroyard.harness.records.runs import record_key
 from neuroyard.harness.records.store import DEFAULT_PATH, ResultStore
 from neuroyard.harness.reports import renderers, report
 from neuroyard.tasks import make
-from neuroyard.tasks.registry import task_class
+from neuroyard.tasks.registry import parse_task, task_class
 
 DEFAULT_EVOLVER = "neat"  # the best reference evolver on the quick suite
 QUICK_SUITE = ("xor-v2",)
@@ -105,7 +105,7 @@ def build_parser() -> argparse.ArgumentParser:
     p = _Parser(prog="neuroyard", description="Benchmark neuroevolution algorithms honestly.")
     sub = p.add_subparsers(dest="command", required=True, parser_class=_Parser)
 
-    listing.add_parsers(sub)
+    listing.add_parsers(sub, _assignment)
 
     r = sub.add_parser("run", help="run a campaign into a results store")
     r.add_argument(
@@ -206,10 +206,12 @@ def _plan(args: argparse.Namespace) -> CampaignPlan:
     evolvers = [EvolverSpec(name, {**config, **params[name]}) for name in names]
     for spec in evolvers:  # fail before any run: bad configuration
         spec.build()
-    task_list = args.task or list(QUICK_SUITE)
-    task_tables = {task_id: task_class(task_id).option_table() for task_id in task_list}
+    given = {text: parse_task(text) for text in args.task or QUICK_SUITE}  # id or FORM:VALUE
+    task_tables = {text: task_class(task_id).option_table() for text, (task_id, _) in given.items()}
     settings = distribute(args.setting, task_tables, "--setting")
-    tasks = [TaskChoice(task_id, settings[task_id]) for task_id in task_list]
+    tasks = [
+        TaskChoice(task_id, {**form, **settings[text]}) for text, (task_id, form) in given.items()
+    ]
     for task in tasks:
         make(task.id, **task.settings)
     return CampaignPlan(evolvers, tasks, args.runs, args.seed, args.budget)
@@ -260,7 +262,8 @@ def _cmd_export(args: argparse.Namespace) -> None:
 
 
 def _cmd_evaluate(args: argparse.Namespace) -> None:
-    task = make(args.task, **dict(args.setting))
+    task_id, form = parse_task(args.task)
+    task = make(task_id, **form, **dict(args.setting))
     network = replay.network_from_file(args.network)
     validate(network, task.spec.inputs, task.spec.outputs, where=f"network file {args.network}")
     compiled = compile_network(network)

@@ -15,6 +15,7 @@ from neuroyard.harness.core.errors import NeuroyardError
 from neuroyard.harness.core.network import Network, from_dict, loads
 from neuroyard.harness.records.store import ResultStore
 from neuroyard.tasks import make
+from neuroyard.tasks.registry import parse_task
 
 DEFAULT_TASK = "pole2-markov-v1"
 
@@ -37,11 +38,12 @@ def add_parser(sub: Any, positive: Any) -> None:
 
 def command(args: argparse.Namespace) -> None:
     """Replay and print the task's one-line summary."""
+    task_id, form = parse_task(args.task)
     if args.store:
-        network, settings = network_from_store(args.store, args.task, args.run)
+        network, settings = network_from_store(args.store, task_id, args.run)
     else:
-        network, settings = network_from_file(args.network), {}
-    task = make(args.task, **settings)
+        network, settings = network_from_file(args.network), form
+    task = make(task_id, **settings)
     try:
         summary = task.replay(network, args.steps, args.out)
     except OSError as exc:

@@ -219,7 +219,7 @@ def run_one(
     calibration_seconds = calibration.seconds()  # once per process, before the run's clock
     wall_start = time.perf_counter()
     record = new_record(spec)
-    task = make(spec.task, seed=record.task_seed, **spec.task_settings)  # once per run
+    task = make(spec.task, record.task_seed, **spec.task_settings)  # once per run
     kernel_load = load_kernels(task)
     record.task_facts = dict(task.spec.facts)
     budget = record.budget

@@ -61,6 +61,16 @@ class Maze:
         return math.hypot(self.width, self.height)
 
 
+def arena_sides(width: float, height: float) -> list[tuple[float, float, float, float]]:
+    """The four sides of a ``width`` x ``height`` arena as wall segments."""
+    return [
+        (0.0, 0.0, width, 0.0),
+        (width, 0.0, width, height),
+        (width, height, 0.0, height),
+        (0.0, height, 0.0, 0.0),
+    ]
+
+
 def segment_distance(px: float, py: float, wall: np.ndarray) -> float:
     """Euclidean distance from point (px, py) to the segment ``wall`` = (x1, y1, x2, y2)."""
     x1, y1, x2, y2 = (float(v) for v in wall)
@@ -146,13 +156,7 @@ def parse_maze(text: str, where: str, clearance: float) -> Maze:
             if not (0.0 <= x <= width and 0.0 <= y <= height):
                 raise read.fail(f"{entry}.{end}", f"({x}, {y}) lies outside the bounds")
         segments.append((*a, *b))
-    sides = [
-        (0.0, 0.0, width, 0.0),
-        (width, 0.0, width, height),
-        (width, height, 0.0, height),
-        (0.0, height, 0.0, 0.0),
-    ]
-    walls = np.array(segments + sides, dtype=np.float64).reshape(-1, 4)
+    walls = np.array(segments + arena_sides(width, height), dtype=np.float64).reshape(-1, 4)
     for name, place in (("start", start), ("goal", goal)):
         x, y = place["x"], place["y"]
         if not (0.0 <= x <= width and 0.0 <= y <= height):

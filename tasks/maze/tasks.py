@@ -5,17 +5,21 @@
 | maze-open-v1    | mazes/open.toml      | an arena without inner walls (sanity)                 |
 | maze-medium-v1  | mazes/medium.toml    | two staggered walls: an S-shaped route                |
 | maze-hard-v1    | mazes/hard.toml      | the straight route to the goal ends at a long wall    |
+| maze-file-v1    | setting ``file``     | a maze file of the user's (``--task maze:PATH``)      |
+| maze-gen-v1     | generated            | a maze from ``size``, ``seed`` and ``deception``      |
 
 The mazes are ours (the published maps exist only as figures); the robot and the protocol
 follow (reference/SOURCES.md: lehman2011; maze robot; maze protocol). Fitness =
 ``diagonal - d`` with d the robot's final distance to the goal and ``diagonal`` the arena's
 diagonal (the publication's constant b_f has no stated value; ours), so fitness lies in
 [0, diagonal]. Solved: the robot ends within ``GOAL_RADIUS`` units of the goal. The
-behaviour descriptor of an evaluation is the final position (x, y).
+behaviour descriptor of an evaluation is the final position (x, y). Every maze task's spec
+carries the maze's deception figures (:mod:`.deception`) as facts, kept in every run record.
 """
 
 from __future__ import annotations
 
+import hashlib
 import math
 from importlib.resources import files
 from pathlib import Path
@@ -25,11 +29,15 @@ import numpy as np
 
 from neuroyard.harness.core.batch import CompiledBatch
 from neuroyard.harness.core.compiled import CompiledNetwork
+from neuroyard.harness.core.errors import TaskError
 from neuroyard.harness.core.evolver import Evaluation
+from neuroyard.harness.core.options import Option
 
 from ..base import Metric, SuccessCheck, Task, TaskSpec
-from ..registry import register
-from .mazefile import Maze, load_maze
+from ..registry import register, register_form
+from .deception import Deception, measure
+from .generate import CANDIDATES, generated_maze
+from .mazefile import Maze, load_maze, parse_maze
 from .robot import MAX_SPEED, MAX_TURN, N_INPUTS, RADIUS, RANGE, run_batch, run_episode
 
 LEHMAN_2011 = (
@@ -52,17 +60,25 @@ def shipped_maze(name: str) -> Path:
 
 
 class MazeTask(Task):
-    """Navigation in one maze file; subclasses name the file."""
+    """Navigation in one maze; subclasses say where the maze comes from (:meth:`load`)."""
 
-    maze_file: ClassVar[str]
     description: ClassVar[str]
 
-    def __init__(self, seed: int = 0, **settings) -> None:
+    def __init__(self, seed: int = 0, /, **settings) -> None:
         super().__init__(seed, **settings)
-        self.maze: Maze = load_maze(shipped_maze(self.maze_file), clearance=RADIUS)
+        self.maze, self.deception = self.load()
         x, y, heading = self.maze.start
         self.start = np.array([x, y, math.radians(heading)], dtype=np.float64)
         self.goal = np.array(self.maze.goal, dtype=np.float64)
+
+    def load(self) -> tuple[Maze, Deception]:
+        """The task's maze (validated) and its deception figures."""
+        raise NotImplementedError
+
+    @property
+    def origin(self) -> str:
+        """Where the maze comes from, in words (for the spec's sources)."""
+        raise NotImplementedError
 
     def _evaluation(self, x: float, y: float) -> Evaluation:
         distance = math.hypot(x - self.goal[0], y - self.goal[1])
@@ -123,7 +139,9 @@ class MazeTask(Task):
             sources=(
                 LEHMAN_2011,
                 "the published robot's bias input is the network's bias node here",
-                f"{self.description} (maze of ours, {self.maze_file}.toml)",
+                f"{self.description} ({self.origin})",
+                "facts: the maze's deception figures (ours; neuroyard.tasks.maze.deception "
+                "says how they are measured)",
             ),
             max_fitness=maze.diagonal,
             min_fitness=0.0,
@@ -140,28 +158,124 @@ class MazeTask(Task):
             output_rule="each output is clipped to [0, 1] (so +-inf saturate); a NaN output "
             "counts as 0.5 (no turn, no move), so every network gets a finite fitness",
             metrics=(FINAL_DISTANCE,),
+            facts=self.deception.facts(),
         )
 
 
+def _measured(maze: Maze) -> tuple[Maze, Deception]:
+    return maze, measure(maze, RADIUS, GOAL_RADIUS)
+
+
+class ShippedMaze(MazeTask):
+    """A maze file shipped with neuroyard; subclasses name it."""
+
+    maze_file: ClassVar[str]
+
+    def load(self) -> tuple[Maze, Deception]:
+        return _measured(load_maze(shipped_maze(self.maze_file), clearance=RADIUS))
+
+    @property
+    def origin(self) -> str:
+        return f"maze of ours, {self.maze_file}.toml"
+
+
 @register
-class OpenMaze(MazeTask):
+class OpenMaze(ShippedMaze):
     id = "maze-open-v1"
     maze_file = "open"
     description = "an open arena without inner walls, a sanity check"
 
 
 @register
-class MediumMaze(MazeTask):
+class MediumMaze(ShippedMaze):
     id = "maze-medium-v1"
     maze_file = "medium"
     description = "two staggered walls make an S-shaped route to the goal"
 
 
 @register
-class HardMaze(MazeTask):
+class HardMaze(ShippedMaze):
     id = "maze-hard-v1"
     maze_file = "hard"
     description = (
         "deceptive: the straight route to the goal ends at a long wall; the way round "
         "leads away from the goal until its last stretch"
     )
+
+
+def file_sha256(path: str) -> str:
+    """The SHA-256 of a maze file's bytes, in hex (a TaskError names a file not readable)."""
+    try:
+        return hashlib.sha256(Path(path).read_bytes()).hexdigest()
+    except OSError as exc:
+        raise TaskError(f"maze file {path}: cannot be read ({exc.strerror})") from None
+
+
+@register
+class MazeFile(MazeTask):
+    """A maze file of the user's: ``--task maze:PATH`` is this task with ``file = PATH``.
+
+    The run's identity covers the file's content: building the task fills ``sha256`` in
+    with the file's hash, and a task built with a ``sha256`` (a stored run, a resumed
+    campaign) refuses a file whose content no longer has it."""
+
+    id = "maze-file-v1"
+    description = "a maze of the user's"
+    needs = ("file",)
+    options = (
+        Option("file", None, "path of the maze file (neuroyard.tasks.maze.mazefile has "
+               "the format)", kind=str, source="ours"),
+        Option("sha256", None, "SHA-256 of the file's content, filled in when the task "
+               "is built; a file with other content is refused", kind=str, source="ours"),
+    )  # fmt: skip
+
+    def check_settings(self) -> None:
+        path = self.settings["file"]
+        if path is None:
+            raise TaskError(f"task {self.id}: the setting 'file' is required (--task maze:PATH)")
+        found = file_sha256(path)
+        planned = self.settings["sha256"]
+        if planned not in (None, found):
+            raise TaskError(
+                f"maze file {path}: its content changed since the runs were planned "
+                f"(sha256 {found[:12]}..., planned {planned[:12]}...)"
+            )
+        self.settings["sha256"] = found
+
+    def load(self) -> tuple[Maze, Deception]:
+        path = self.settings["file"]
+        return _measured(parse_maze(Path(path).read_text(encoding="utf-8"), path, RADIUS))
+
+    @property
+    def origin(self) -> str:
+        return f"maze file {self.settings['file']}"
+
+
+register_form("maze", MazeFile.id, "file")
+
+
+@register
+class GeneratedMaze(MazeTask):
+    """A generated maze (:mod:`.generate`): ``size`` walls across the arena, each with a
+    gap; ``seed`` draws the candidates; ``deception`` asks for a deception score."""
+
+    id = "maze-gen-v1"
+    description = "a generated maze"
+    options = (
+        Option("size", 2, "walls across the arena, each with one gap", low=1, high=4,
+               source="ours"),
+        Option("seed", 0, "seed of the maze's candidates (not the run's seed)", low=0,
+               source="ours"),
+        Option("deception", 0.05, f"deception score asked for: of {CANDIDATES} candidates "
+               "the maze is the one whose score lies nearest", low=0.0, high=1.0,
+               source="ours"),
+    )  # fmt: skip
+
+    def load(self) -> tuple[Maze, Deception]:
+        s = self.settings
+        return generated_maze(s["size"], s["seed"], s["deception"], RADIUS, GOAL_RADIUS)
+
+    @property
+    def origin(self) -> str:
+        s = self.settings
+        return f"size {s['size']}, seed {s['seed']}, deception asked {s['deception']}"

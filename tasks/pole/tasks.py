@@ -205,7 +205,7 @@ class PoleBalancing(Task):
     velocities: ClassVar[bool]
     budget: ClassVar[int] = 100_000  # default evaluation budget of the spec
 
-    def __init__(self, seed: int = 0, **settings: Any) -> None:
+    def __init__(self, seed: int = 0, /, **settings: Any) -> None:
         super().__init__(seed, **settings)
         self.physics = self._physics()
         self.rules = self._rules()
