@@ -25,6 +25,7 @@ from .mazefile import Maze, arena_sides
 ARENA = 200.0  # units of length, the side of the square arena (as our shipped mazes)
 CANDIDATES = 24
 GAP = 40.0  # units of length, the width of each gap (ours)
+LIP = 0.6  # the longest lip, as a share of the height of a band (ours)
 STEPS = 400  # from memory (reference/SOURCES.md: lehman2011; maze protocol)
 
 
@@ -35,11 +36,17 @@ def candidate(size: int, seed: int, k: int) -> Maze:
     margin = GAP  # a gap's centre lies at least GAP from a side: its ends GAP / 2
     gaps = rng.uniform(margin, ARENA - margin, size)
     start_x, goal_x = rng.uniform(margin, ARENA - margin, 2)
+    lip = LIP * band * k / (CANDIDATES - 1)
     walls = []
+    came_from = start_x  # where the robot arrives at a wall from: the start, the last gap
     for n, centre in enumerate(gaps):
         y = (n + 1) * band
         walls.append((0.0, y, centre - GAP / 2, y))
         walls.append((centre + GAP / 2, y, ARENA, y))
+        if lip > 0.0:  # the lip hangs from the gap's edge on the side the robot comes from
+            edge = centre - GAP / 2 if came_from < centre else centre + GAP / 2
+            walls.append((edge, y, edge, y - lip))
+        came_from = centre
     return Maze(
         name=f"maze-gen-v1 size={size} seed={seed} (candidate {k})",
         width=ARENA,

@@ -7,7 +7,7 @@ study reproduces the phenomenon on mazes of ours, not their numbers: the publish
 in ``reference/figures/maze.toml`` are shown beside ours and never gate.
 
 Both sides are the same NEAT with the maze experiment's parameters (``neat-novelty``) and
-the one free parameter below (``FREE_PARAMETERS``): novelty search with its defaults, objective NEAT with ``selection = fitness``, and the
+the one free parameter of ``tests/slow/maze_study.py``: novelty search with its defaults, objective NEAT with ``selection = fitness``, and the
 random-selection control with ``selection = random``. 20 runs each with a budget of
 250,000 evaluations (the paper's budget) into ``results/maze/<maze>.sqlite`` (resumable);
 ``results/maze/<maze>.json`` holds the summary. Run with::
@@ -26,8 +26,8 @@ from pathlib import Path
 from typing import Any
 
 import pytest
+from maze_study import side
 
-from neuroyard.harness.core.evolver_registry import EvolverSpec
 from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
 from neuroyard.harness.execution.supervisor import Supervisor
 from neuroyard.harness.records.runs import RunRecord
@@ -43,19 +43,6 @@ WORKERS = 2
 RUNS = 20
 BUDGET = 250_000  # lehman2011, sec. 6 (maze protocol)
 SELECTIONS = ("novelty", "fitness", "random")
-# The paper's compatibility threshold was "variable (dynamic)" (App. A, Table 1) and gives
-# no target; neuroyard's NEAT keeps it fixed. At the default 3.0 (with the XOR-tuned weight
-# magnitudes) nearly every genome formed its own species (about 250 species of 250
-# genomes), which made speciation take ~0.8 s per generation. Probes on the hard maze
-# (objective NEAT, 10,000 evaluations, run 0): threshold 6 -> ~249 species, 10 -> ~58,
-# 15 -> ~5; 12 gave 20-30 species. Chosen on the species count, the same for every side.
-FREE_PARAMETERS = {"compat_threshold": 12.0}
-
-
-def side(selection: str) -> EvolverSpec:
-    """``neat-novelty`` (the maze experiment's NEAT) with the given selection."""
-    chosen = {} if selection == "novelty" else {"selection": selection}
-    return EvolverSpec("neat-novelty", {**FREE_PARAMETERS, **chosen})
 
 
 def run_maze(maze: str, selections: tuple[str, ...]) -> dict[str, list[RunRecord]]:
