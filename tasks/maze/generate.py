@@ -5,9 +5,13 @@ walls across it, evenly spaced from bottom to top, each with one gap ``GAP`` uni
 (the robot's diameter is 16). The robot starts in the bottom band facing up (+y); the goal
 lies in the top band, so the route climbs through every gap. From the seed come
 ``CANDIDATES`` candidate mazes, each with its own start, goal and gap positions drawn
-uniformly (the gaps' ends at least ``GAP`` / 2 from the sides); a gap straight on the line
-from start to goal costs nothing, a gap at the far end of its wall makes a dead end for a
-robot that heads for the goal. Every candidate is solvable by construction and checked by
+uniformly (the gaps' ends at least ``GAP`` / 2 from the sides), and a lip: a wall
+hanging down from the edge of each gap on the side the robot comes from (the start's side
+for the first wall, the last gap's for the next), candidate k's lips ``LIP`` x k /
+(``CANDIDATES`` - 1) of a band long. A candidate whose start or goal lies within the
+robot's radius of a wall is dropped (the rule of the maze file format). A gap straight on the line
+from start to goal costs nothing; a gap at the far end of its wall, behind a long lip,
+makes a deep dead end for a robot that heads for the goal. Every candidate is solvable by construction and checked by
 the grid path search of :mod:`.deception`. The maze given is the candidate whose
 deception score lies nearest the ``deception`` asked for (the first of equals), so the
 knob asks for a score, and the score the maze has is what a run records. All of it is ours.
@@ -20,7 +24,7 @@ from functools import lru_cache
 import numpy as np
 
 from .deception import Deception, measure
-from .mazefile import Maze, arena_sides
+from .mazefile import Maze, arena_sides, segment_distance
 
 ARENA = 200.0  # units of length, the side of the square arena (as our shipped mazes)
 CANDIDATES = 24
@@ -58,6 +62,13 @@ def candidate(size: int, seed: int, k: int) -> Maze:
     )
 
 
+def usable(maze: Maze, radius: float) -> bool:
+    """True when the start and the goal lie at least ``radius`` from every wall (the rule
+    of the maze file format); a lip can come too close to the start."""
+    points = (maze.start[:2], maze.goal)
+    return all(segment_distance(x, y, wall) >= radius for x, y in points for wall in maze.walls)
+
+
 @lru_cache(maxsize=64)
 def generated_maze(
     size: int, seed: int, deception: float, radius: float, goal_radius: float
@@ -67,6 +78,8 @@ def generated_maze(
     best: tuple[float, int, Maze, Deception] | None = None
     for k in range(CANDIDATES):
         maze = candidate(size, seed, k)
+        if not usable(maze, radius):
+            continue
         figures = measure(maze, radius, goal_radius)
         if not figures.solvable:
             raise AssertionError(f"{maze.name} is not solvable: a bug of the generator")
