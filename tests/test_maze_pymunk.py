@@ -3,7 +3,9 @@
 pymunk's segment queries (the first shape hit along a segment) are the reference for the
 rangefinders, and its point queries (shapes within a distance of a point) the reference
 for the collision rule: a move is not made when the robot's disc would come closer than
-its radius to a wall (tasks/maze/robot.py).
+its radius to a wall (tasks/maze/robot.py). The pymunk side is the one of the speed
+benchmark (tests/bench/maze_pymunk_robot.py). Mazes: every shipped one and generated ones
+of each size, with lips.
 """
 
 from __future__ import annotations
@@ -13,31 +15,25 @@ import math
 import numpy as np
 import pymunk
 import pytest
+from maze_pymunk_robot import radar, rangefinders, wall_space
 
 from neuroyard import tasks
 from neuroyard.harness.core.batch import compile_network
 from neuroyard.harness.core.network import Connection, Network, Node
 from neuroyard.tasks.maze import load_maze, sense, shipped_maze
-from neuroyard.tasks.maze.robot import MAX_SPEED, RADIUS, RANGE, RANGEFINDER_ANGLES, blocked
+from neuroyard.tasks.maze.robot import MAX_SPEED, RADIUS, RANGE, blocked
 
-MAZES = ("open", "medium", "hard")
 POSES = 300
+GENERATED = [{"size": size, "seed": 4, "deception": 1.0} for size in (1, 2, 3, 4)]
+MAZES = ["open", "medium", "hard"] + [f"gen size {g['size']}" for g in GENERATED]
 
 
-def pymunk_space(walls: np.ndarray) -> pymunk.Space:
-    """A space holding every wall as a static segment of radius 0."""
-    space = pymunk.Space()
-    body = space.static_body
-    for x1, y1, x2, y2 in walls.tolist():
-        space.add(pymunk.Segment(body, (x1, y1), (x2, y2), 0.0))
-    return space
-
-
-def pymunk_range(space: pymunk.Space, x: float, y: float, angle: float) -> float:
-    """Distance to the first wall along the ray, capped at RANGE, by pymunk."""
-    end = (x + RANGE * math.cos(angle), y + RANGE * math.sin(angle))
-    hit = space.segment_query_first((x, y), end, 0.0, pymunk.ShapeFilter())
-    return RANGE if hit is None else hit.alpha * RANGE
+def maze_named(name: str):
+    """A shipped maze, or a generated one (the deepest the seed gives: the longest lips)."""
+    if name.startswith("gen"):
+        settings = GENERATED[[f"gen size {g['size']}" for g in GENERATED].index(name)]
+        return tasks.make("maze-gen-v1", **settings).maze
+    return load_maze(shipped_maze(name), RADIUS)
 
 
 def random_poses(maze, rng: np.random.Generator, n: int) -> np.ndarray:
@@ -49,21 +45,24 @@ def random_poses(maze, rng: np.random.Generator, n: int) -> np.ndarray:
 
 @pytest.mark.parametrize("name", MAZES)
 def test_rangefinders_equal_pymunk_segment_queries(name):
-    maze = load_maze(shipped_maze(name), RADIUS)
-    space = pymunk_space(maze.walls)
+    maze = maze_named(name)
+    space = wall_space(maze.walls)
     goal = np.array(maze.goal)
     readings = np.zeros(10)
     rng = np.random.default_rng(17)
     for x, y, heading in random_poses(maze, rng, POSES).tolist():
         sense(maze.walls, goal, x, y, heading, readings)
-        expected = [pymunk_range(space, x, y, heading + a) for a in RANGEFINDER_ANGLES]
-        np.testing.assert_allclose(readings[:6] * RANGE, expected, rtol=0, atol=1e-9)
+        expected = rangefinders(space, x, y, heading)
+        np.testing.assert_allclose(
+            readings[:6] * RANGE, np.array(expected) * RANGE, rtol=0, atol=1e-9
+        )
+        assert readings[6:].tolist() == radar(maze.goal, x, y, heading)
 
 
 @pytest.mark.parametrize("name", MAZES)
 def test_collision_rule_agrees_with_pymunk_point_queries(name):
-    maze = load_maze(shipped_maze(name), RADIUS)
-    space = pymunk_space(maze.walls)
+    maze = maze_named(name)
+    space = wall_space(maze.walls)
     rng = np.random.default_rng(18)
     outcomes = []
     for x, y, _ in random_poses(maze, rng, POSES).tolist():
@@ -81,12 +80,12 @@ def random_network(rng: np.random.Generator) -> Network:
     return Network(tuple(nodes), tuple(links), "feedforward")
 
 
-@pytest.mark.parametrize("task_id", ["maze-medium-v1", "maze-hard-v1"])
+@pytest.mark.parametrize("task_id", ["maze-medium-v1", "maze-hard-v1", "maze-gen-v1"])
 def test_episodes_never_enter_a_wall_by_pymunk(task_id):
     """Every position of an episode keeps the robot's disc clear of every wall (pymunk
     point queries), and a step either moves at most the top speed or stays put."""
     task = tasks.make(task_id)
-    space = pymunk_space(task.maze.walls)
+    space = wall_space(task.maze.walls)
     rng = np.random.default_rng(19)
     stays = 0
     for _ in range(8):

@@ -7,8 +7,9 @@ lies in the top band, so the route climbs through every gap. From the seed come
 ``CANDIDATES`` candidate mazes, each with its own start, goal and gap positions drawn
 uniformly (the gaps' ends at least ``GAP`` / 2 from the sides), and a lip: a wall
 hanging down from the edge of each gap on the side the robot comes from (the start's side
-for the first wall, the last gap's for the next), candidate k's lips ``LIP`` x k /
-(``CANDIDATES`` - 1) of a band long. A candidate whose start or goal lies within the
+for the first wall, the last gap's for the next), candidate k's lips k / (``CANDIDATES`` - 1)
+of ``LIP`` x the band's height long, and never so long that less than ``GAP`` / 2 is
+left below them. A candidate whose start or goal lies within the
 robot's radius of a wall is dropped (the rule of the maze file format). A gap straight on the line
 from start to goal costs nothing; a gap at the far end of its wall, behind a long lip,
 makes a deep dead end for a robot that heads for the goal. Every candidate is solvable by construction and checked by
@@ -40,7 +41,8 @@ def candidate(size: int, seed: int, k: int) -> Maze:
     margin = GAP  # a gap's centre lies at least GAP from a side: its ends GAP / 2
     gaps = rng.uniform(margin, ARENA - margin, size)
     start_x, goal_x = rng.uniform(margin, ARENA - margin, 2)
-    lip = LIP * band * k / (CANDIDATES - 1)
+    # a lip leaves at least GAP / 2 below it, so the robot (diameter 16) can pass under it
+    lip = min(LIP * band, band - GAP / 2) * k / (CANDIDATES - 1)
     walls = []
     came_from = start_x  # where the robot arrives at a wall from: the start, the last gap
     for n, centre in enumerate(gaps):
