@@ -2,7 +2,7 @@
 
 from . import (
     logic,  # noqa: F401  (registers xor-v2, parity-v2)
-    maze,  # noqa: F401  (registers maze-open-v1, maze-medium-v1, maze-hard-v1)
+    maze,  # noqa: F401  (registers maze-open-v1, maze-medium-v1, maze-hard-v2)
     pole,  # noqa: F401
 )
 from .base import Metric, SuccessCheck, Task, TaskSpec

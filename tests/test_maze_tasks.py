@@ -15,7 +15,7 @@ from neuroyard.harness.core.network import Connection, Network, Node
 from neuroyard.tasks.maze import sense
 from neuroyard.tasks.maze.robot import MAX_SPEED, RADIUS
 
-MAZE_TASKS = ("maze-open-v1", "maze-medium-v1", "maze-hard-v1")
+MAZE_TASKS = ("maze-open-v1", "maze-medium-v1", "maze-hard-v2")
 
 
 def constant_network(turn: float, speed: float) -> Network:
@@ -39,7 +39,7 @@ def test_spec_states_the_published_interface(task_id):
 def test_hard_maze_straight_route_ends_in_the_trap():
     """Driving straight at full speed from the start (which faces the goal) stops under
     the long wall at y = 150, one radius below it, far from the goal (maze of ours)."""
-    task = tasks.make("maze-hard-v1")
+    task = tasks.make("maze-hard-v2")
     net = compile_network(constant_network(0.5, 1.0), 10, 2)
     evaluation = task.evaluate(net)
     x, y = evaluation.behaviour

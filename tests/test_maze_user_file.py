@@ -32,7 +32,7 @@ def run_file_campaign(capsys, maze: str, store: str) -> int:
 
 def test_maze_form_names_the_file_task():
     assert parse_task("maze:some/where.toml") == ("maze-file-v1", {"file": "some/where.toml"})
-    assert parse_task("maze-hard-v1") == ("maze-hard-v1", {})
+    assert parse_task("maze-hard-v2") == ("maze-hard-v2", {})
     with pytest.raises(TaskError, match="nothing after 'maze:'"):
         parse_task("maze:")
 
@@ -49,7 +49,7 @@ def test_a_user_maze_runs_and_its_runs_carry_the_content_hash(tmp_path, capsys):
         assert r.task == "maze-file-v1"
         assert r.task_settings["file"] == str(maze) and len(r.task_settings["sha256"]) == 64
         # the same maze as the shipped hard one: the same deception figures
-        assert r.task_facts == make("maze-hard-v1").spec.facts
+        assert r.task_facts == make("maze-hard-v2").spec.facts
 
     run_file_campaign(capsys, str(maze), store)  # unchanged file: nothing runs again
     with ResultStore(store, write=False) as s:

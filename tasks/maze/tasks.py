@@ -4,7 +4,7 @@
 |-----------------|----------------------|-------------------------------------------------------|
 | maze-open-v1    | mazes/open.toml      | an arena without inner walls (sanity)                 |
 | maze-medium-v1  | mazes/medium.toml    | two staggered walls: an S-shaped route                |
-| maze-hard-v1    | mazes/hard.toml      | the straight route to the goal ends at a long wall    |
+| maze-hard-v2    | mazes/hard.toml      | the straight route ends in a closed pocket            |
 | maze-file-v1    | setting ``file``     | a maze file of the user's (``--task maze:PATH``)      |
 | maze-gen-v1     | generated            | a maze from ``size``, ``seed`` and ``deception``      |
 
@@ -34,7 +34,7 @@ from neuroyard.harness.core.evolver import Evaluation
 from neuroyard.harness.core.options import Option
 
 from ..base import Metric, SuccessCheck, Task, TaskSpec
-from ..registry import register, register_form
+from ..registry import register, register_form, retire
 from .deception import Deception, measure
 from .generate import CANDIDATES, generated_maze
 from .mazefile import Maze, load_maze, parse_maze
@@ -195,12 +195,22 @@ class MediumMaze(ShippedMaze):
 
 @register
 class HardMaze(ShippedMaze):
-    id = "maze-hard-v1"
+    id = "maze-hard-v2"
     maze_file = "hard"
     description = (
-        "deceptive: the straight route to the goal ends at a long wall; the way round "
-        "leads away from the goal until its last stretch"
+        "deceptive: the straight route to the goal ends at a long wall closing the start's "
+        "pocket; the way round leaves the pocket at its bottom and leads away from the goal "
+        "until its last stretch"
     )
+
+
+retire(
+    "maze-hard-v1",
+    HardMaze.id,
+    "version 1 was not deceptive enough: its pocket opened at the top, and objective NEAT "
+    "solved 6 of the 6 study runs it made (results/maze/README.md); version 2 closes the "
+    "pocket at the top",
+)
 
 
 def file_sha256(path: str) -> str:
