@@ -43,12 +43,13 @@ WORKERS = 2
 RUNS = 20
 BUDGET = 250_000  # lehman2011, sec. 6 (maze protocol)
 SELECTIONS = ("novelty", "fitness", "random")
+TASKS = {"medium": "maze-medium-v1", "hard": "maze-hard-v2"}
 
 
 def run_maze(maze: str, selections: tuple[str, ...]) -> dict[str, list[RunRecord]]:
-    """Run (or resume) ``selections`` on ``maze-<maze>-v1``; the records of each side."""
+    """Run (or resume) ``selections`` on ``TASKS[maze]``; the records of each side."""
     RESULTS.mkdir(parents=True, exist_ok=True)
-    task = f"maze-{maze}-v1"
+    task = TASKS[maze]
     evolvers = {s: side(s) for s in selections}
     with ResultStore(RESULTS / f"{maze}.sqlite") as store:
 
