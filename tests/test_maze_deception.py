@@ -115,6 +115,6 @@ def test_the_knob_picks_the_candidate_nearest_the_score_asked():
 
 
 def test_a_generated_maze_is_the_same_from_the_same_settings():
-    a, b = candidate(3, 7, 4), candidate(3, 7, 4)
+    a, b = candidate(2, 7, 4), candidate(2, 7, 4)
     assert np.array_equal(a.walls, b.walls) and a.start == b.start and a.goal == b.goal
-    assert not np.array_equal(candidate(3, 8, 4).walls, a.walls)
+    assert not np.array_equal(candidate(2, 8, 4).walls, a.walls)

@@ -6,7 +6,7 @@
 | maze-medium-v1  | mazes/medium.toml    | two staggered walls: an S-shaped route                |
 | maze-hard-v2    | mazes/hard.toml      | the straight route ends in a closed pocket            |
 | maze-file-v1    | setting ``file``     | a maze file of the user's (``--task maze:PATH``)      |
-| maze-gen-v1     | generated            | a maze from ``size``, ``seed`` and ``deception``      |
+| maze-gen-v2     | generated            | a maze from ``size``, ``seed`` and ``deception``      |
 
 The mazes are ours (the published maps exist only as figures); the robot and the protocol
 follow (reference/SOURCES.md: lehman2011; maze robot; maze protocol). Fitness =
@@ -266,14 +266,14 @@ register_form("maze", MazeFile.id, "file")
 
 @register
 class GeneratedMaze(MazeTask):
-    """A generated maze (:mod:`.generate`): ``size`` walls across the arena, each with a
-    gap; ``seed`` draws the candidates; ``deception`` asks for a deception score."""
+    """A generated maze (:mod:`.generate`): ``size`` nested pockets around the start, each
+    with a mouth; ``seed`` draws the candidates; ``deception`` asks for a deception score."""
 
-    id = "maze-gen-v1"
+    id = "maze-gen-v2"
     description = "a generated maze"
     options = (
-        Option("size", 2, "walls across the arena, each with one gap", low=1, high=4,
-               source="ours"),
+        Option("size", 2, "nested pockets around the start, each with one mouth", low=1,
+               high=2, source="ours"),
         Option("seed", 0, "seed of the maze's candidates (not the run's seed)", low=0,
                source="ours"),
         Option("deception", 0.05, f"deception score asked for: of {CANDIDATES} candidates "
@@ -289,3 +289,12 @@ class GeneratedMaze(MazeTask):
     def origin(self) -> str:
         s = self.settings
         return f"size {s['size']}, seed {s['seed']}, deception asked {s['deception']}"
+
+
+retire(
+    "maze-gen-v1",
+    GeneratedMaze.id,
+    "version 1 (walls across the arena, each with a gap) did not make objective NEAT's "
+    "success follow its deception score (results/maze/README.md); version 2 nests pockets "
+    "around the start",
+)
