@@ -86,8 +86,12 @@ class MazeTask(Task):
         """Where the maze comes from, in words (for the spec's sources)."""
         raise NotImplementedError
 
+    def goal_distance(self, x: float, y: float) -> float:
+        """Straight-line distance from (x, y) to the goal, in units of length."""
+        return math.hypot(x - self.goal[0], y - self.goal[1])
+
     def _evaluation(self, x: float, y: float) -> Evaluation:
-        distance = math.hypot(x - self.goal[0], y - self.goal[1])
+        distance = self.goal_distance(x, y)
         fitness = max(0.0, self.maze.diagonal - distance)
         return Evaluation(fitness, behaviour=(x, y))
 
@@ -117,8 +121,7 @@ class MazeTask(Task):
         return picture.Scene(self.maze, GOAL_RADIUS, points, trajectory, title)
 
     def _ending(self, trajectory: np.ndarray) -> str:
-        x, y = trajectory[-1]
-        distance = math.hypot(x - self.goal[0], y - self.goal[1])
+        distance = self.goal_distance(*trajectory[-1])
         steps = len(trajectory) - 1
         return f"ends {distance:.1f} units from the goal after {steps} of {self.maze.steps} steps"
 
@@ -157,8 +160,7 @@ class MazeTask(Task):
         return [self._evaluation(x, y) for x, y in final.tolist()]
 
     def success_test(self, net: CompiledNetwork, evaluation: Evaluation) -> SuccessCheck:
-        x, y = self.evaluate(net).behaviour
-        distance = math.hypot(x - self.goal[0], y - self.goal[1])
+        distance = self.goal_distance(*self.evaluate(net).behaviour)
         return SuccessCheck(
             solved=distance <= GOAL_RADIUS, evaluations=1, details={"final_distance": distance}
         )
