@@ -20,10 +20,10 @@ derives that seed from (task, run index), so every evolver meets the same task i
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, ClassVar
+from typing import Any, BinaryIO, ClassVar
 
 from neuroyard.harness.core.batch import CompiledBatch, compile_batch
 from neuroyard.harness.core.compiled import CompiledNetwork
@@ -153,6 +153,29 @@ class Task(ABC):
         image file ``out`` and return a one-line summary (``neuroyard replay``). Tasks
         without a picture of an episode raise :class:`TaskError`."""
         raise TaskError(f"task {self.id} has no replay")
+
+    def draw_run(
+        self,
+        network: Network | None,
+        behaviours: Sequence[Sequence[float]],
+        out: str | Path | BinaryIO,
+        label: str = "",
+        steps: int | None = None,
+    ) -> str:
+        """Optional: draw one run into the PNG file ``out`` (a path or a binary file) and
+        return a one-line summary of what was drawn (without the file's name).
+        ``network``: the run's best network (None: the run has none); ``behaviours``: the
+        behaviour descriptors of the run's evaluations in evaluation order (the sample a
+        run record keeps); ``label``: a line naming the run (evolver, run, outcome);
+        ``steps``: the most steps of the network's episode to draw (None: all of them).
+        ``neuroyard replay --store`` and the HTML report use it where the task's class
+        implements it (:meth:`draws_runs`); the others raise :class:`TaskError`."""
+        raise TaskError(f"task {self.id} has no picture of a run")
+
+    @classmethod
+    def draws_runs(cls) -> bool:
+        """Whether the task's class implements :meth:`draw_run`."""
+        return cls.draw_run is not Task.draw_run
 
     def problem(self, budget: int) -> Problem:
         """The :class:`Problem` an evolver is started with."""

@@ -146,13 +146,29 @@ def test_the_html_report_of_a_campaign_renders_every_image(tmp_path, monkeypatch
     page = tmp_path / "report.html"
     assert main(["report", "--store", str(store), "--format", "html", "-o", str(page)]) == 0
     assert capsys.readouterr().out == ""  # written to the file, not to stdout
-    seen, _ = check_page(page, tmp_path)
+    seen, source = check_page(page, tmp_path)
     # per task: runtime distribution, fitness curves and sizes; DPNV also generalization
     assert seen["images"] == 7
     text = seen["text"]
     for heading in ("Runs: outcome of every run", "Task metrics", "Published figures"):
         assert heading in text
     assert "Settings the runs were measured under" in text and "327,500" in text
+    assert "where the evaluations of a run ended" not in source  # no maze, no maze picture
+
+
+def test_the_html_report_of_maze_runs_shows_one_run_picture_per_maze(tmp_path, capsys):
+    store = tmp_path / "mazes.db"
+    for task, evolver, budget in (("maze-open-v1", "neat-novelty", "600"),
+                                  ("maze-hard-v2", "rwg", "200")):  # fmt: skip
+        argv = ["run", "--task", task, "--evolver", evolver, "--runs", "2", "--budget", budget]
+        assert main([*argv, "--store", str(store), "--quiet"]) == 0
+    page = tmp_path / "mazes.html"
+    assert main(["report", "--store", str(store), "--format", "html", "-o", str(page)]) == 0
+    capsys.readouterr()
+    seen, source = check_page(page, tmp_path)
+    alts = re.findall(r'alt="where the evaluations of a run ended[^"]*, ([^",]+)"', source)
+    assert alts == ["maze-open-v1", "maze-hard-v2"]
+    assert "The run shown is the first solved run" in seen["text"]
 
 
 def test_markup_in_names_settings_and_reasons_is_shown_as_text(tmp_path, monkeypatch, capsys):

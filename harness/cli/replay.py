@@ -2,7 +2,9 @@
 
 The network is the best one of a run in a results store (replayed under the task settings
 recorded with the run) or a network JSON file; the task draws the picture
-(:meth:`~neuroyard.tasks.base.Task.replay`).
+(:meth:`~neuroyard.tasks.base.Task.replay`). For a stored run on a task that draws whole
+runs (:meth:`~neuroyard.tasks.base.Task.draw_run`, the mazes) the picture also shows where
+the run's evaluations ended.
 """
 
 from __future__ import annotations
@@ -13,6 +15,7 @@ from typing import Any
 
 from neuroyard.harness.core.errors import NeuroyardError
 from neuroyard.harness.core.network import Network, from_dict, loads
+from neuroyard.harness.records.runs import RunRecord
 from neuroyard.harness.records.store import ResultStore
 from neuroyard.tasks import make
 from neuroyard.tasks.registry import parse_task
@@ -39,16 +42,30 @@ def add_parser(sub: Any, positive: Any) -> None:
 def command(args: argparse.Namespace) -> None:
     """Replay and print the task's one-line summary."""
     task_id, form = parse_task(args.task)
-    if args.store:
-        network, settings = network_from_store(args.store, task_id, args.run)
-    else:
-        network, settings = network_from_file(args.network), form
-    task = make(task_id, **settings)
     try:
-        summary = task.replay(network, args.steps, args.out)
+        if args.store:
+            summary = draw_stored_run(args.store, task_id, form, args.run, args.steps, args.out)
+        else:
+            task = make(task_id, **form)
+            summary = task.replay(network_from_file(args.network), args.steps, args.out)
     except OSError as exc:
         raise NeuroyardError(f"image file {args.out}: cannot write it ({exc.strerror})") from None
     print(summary)
+
+
+def draw_stored_run(
+    store_path: Path, task_id: str, form: dict[str, Any], run: int, steps: int, out: Path
+) -> str:
+    """Draw run ``run`` of ``task_id`` (with the settings ``form`` gives, if any) into
+    ``out``: the whole run (its final positions and best network) where the task draws
+    runs (:meth:`~neuroyard.tasks.base.Task.draw_run`), else its best network's episode."""
+    record = record_from_store(store_path, task_id, form, run)
+    task = make(task_id, **record.task_settings)
+    network = from_dict(record.best_network)
+    if not task.draws_runs():
+        return task.replay(network, steps, out)
+    label = f"{record.evolver}, run {record.run_index} ({record.status})"
+    return f"{out}: {task.draw_run(network, record.behaviours, out, label, steps)}"
 
 
 def network_from_file(path: Path) -> Network:
@@ -60,10 +77,17 @@ def network_from_file(path: Path) -> Network:
     return loads(text, where=f"network file {path}")
 
 
-def network_from_store(store_path: Path, task_id: str, run: int) -> tuple[Network, dict]:
-    """Best network and task settings of run ``run`` on ``task_id`` in a results store."""
+def record_from_store(store_path: Path, task_id: str, form: dict[str, Any], run: int) -> RunRecord:
+    """The first record in a results store of run ``run`` on ``task_id`` with a best
+    network whose task settings include ``form`` (``maze:PATH``: the file PATH)."""
     with ResultStore(store_path, write=False) as store:
         for record in store.records(with_log=False):
-            if record.task == task_id and record.run_index == run and record.best_network:
-                return from_dict(record.best_network), dict(record.task_settings)
-    raise NeuroyardError(f"{store_path}: no run {run} of task {task_id} with a best network")
+            if (
+                record.task == task_id
+                and record.run_index == run
+                and record.best_network
+                and all(record.task_settings.get(k) == v for k, v in form.items())
+            ):
+                return record
+    given = "".join(f" with {k} = {v}" for k, v in form.items())
+    raise NeuroyardError(f"{store_path}: no run {run} of task {task_id}{given} with a best network")

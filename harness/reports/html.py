@@ -2,8 +2,9 @@
 
 The page needs nothing but itself: no script, font or stylesheet from elsewhere, and every
 plot (:mod:`.plots`) embedded as a ``data:`` URI of a PNG image. It shows the tables of
-the text report (:func:`.document.document`), the plots of each task, the settings and
-the notes. The template (``templates/report.html.j2``) is rendered by jinja2 with
+the text report (:func:`.document.document`), the plots of each task (for a task that
+draws runs, the mazes, also the picture of one run: :mod:`.run_picture`), the settings
+and the notes. The template (``templates/report.html.j2``) is rendered by jinja2 with
 autoescaping, so every string from the runs (evolver names, task ids, settings, failure
 reasons, sources) is shown as text, never read as markup.
 """
@@ -28,6 +29,7 @@ from neuroyard.harness.reports.comparison_renderers import (
 )
 from neuroyard.harness.reports.document import document
 from neuroyard.harness.reports.report import ReportRow
+from neuroyard.harness.reports.run_picture import run_picture
 from neuroyard.tasks import Metric, declared_metrics
 
 _ENV = Environment(
@@ -93,6 +95,20 @@ def task_plots(
     return TaskPlots(task, tuple(images))
 
 
+def report_plots(
+    task: str, groups: dict[str, Sequence[RunRecord]], metrics: Sequence[Metric]
+) -> TaskPlots:
+    """The plots of one task (:func:`task_plots`) and, where the task draws runs (the
+    mazes), the picture of a representative run (:mod:`.run_picture`)."""
+    page = task_plots(task, groups, metrics)
+    picture = run_picture(groups)
+    if picture is None:
+        return page
+    png, caption = picture
+    alt = f"where the evaluations of a run ended and its best network's path, {task}"
+    return TaskPlots(task, (*page.images, *_plot(png, alt, caption)))
+
+
 def render_html(rows: Sequence[ReportRow]) -> str:
     """The HTML page of ``rows``; the plots of fitness against evaluations need the rows'
     records read with their generation logs."""
@@ -102,7 +118,7 @@ def render_html(rows: Sequence[ReportRow]) -> str:
     for row, (evolver, task) in zip(rows, doc.labels, strict=True):
         by_task.setdefault(task, {})[evolver] = row.records
         metrics.setdefault(task, row.metrics)
-    pages = [task_plots(task, groups, metrics[task]) for task, groups in by_task.items()]
+    pages = [report_plots(task, groups, metrics[task]) for task, groups in by_task.items()]
     return _ENV.get_template("report.html.j2").render(doc=doc, plots=pages)
 
 

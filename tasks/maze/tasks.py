@@ -15,26 +15,32 @@ diagonal (the publication's constant b_f has no stated value; ours), so fitness 
 [0, diagonal]. Solved: the robot ends within ``GOAL_RADIUS`` units of the goal. The
 behaviour descriptor of an evaluation is the final position (x, y). Every maze task's spec
 carries the maze's deception figures (:mod:`.deception`) as facts, kept in every run record.
+:meth:`MazeTask.replay` and :meth:`MazeTask.draw_run` draw the maze with a network's path
+and a run's final positions (:mod:`.picture`).
 """
 
 from __future__ import annotations
 
 import hashlib
 import math
+from collections.abc import Sequence
+from dataclasses import replace
 from importlib.resources import files
 from pathlib import Path
-from typing import ClassVar
+from typing import BinaryIO, ClassVar
 
 import numpy as np
 
-from neuroyard.harness.core.batch import CompiledBatch
+from neuroyard.harness.core.batch import CompiledBatch, compile_network
 from neuroyard.harness.core.compiled import CompiledNetwork
 from neuroyard.harness.core.errors import TaskError
 from neuroyard.harness.core.evolver import Evaluation
+from neuroyard.harness.core.network import Network
 from neuroyard.harness.core.options import Option
 
 from ..base import Metric, SuccessCheck, Task, TaskSpec
 from ..registry import register, register_form, retire
+from . import picture
 from .deception import Deception, measure
 from .generate import CANDIDATES, generated_maze
 from .mazefile import Maze, load_maze, parse_maze
@@ -80,8 +86,12 @@ class MazeTask(Task):
         """Where the maze comes from, in words (for the spec's sources)."""
         raise NotImplementedError
 
+    def goal_distance(self, x: float, y: float) -> float:
+        """Straight-line distance from (x, y) to the goal, in units of length."""
+        return math.hypot(x - self.goal[0], y - self.goal[1])
+
     def _evaluation(self, x: float, y: float) -> Evaluation:
-        distance = math.hypot(x - self.goal[0], y - self.goal[1])
+        distance = self.goal_distance(x, y)
         fitness = max(0.0, self.maze.diagonal - distance)
         return Evaluation(fitness, behaviour=(x, y))
 
@@ -90,6 +100,55 @@ class MazeTask(Task):
         record = np.zeros((self.maze.steps + 1, 2), dtype=np.float64)
         run_episode(net, self.maze.walls, self.start, self.goal, self.maze.steps, record)
         return record
+
+    def scene(
+        self,
+        network: Network | None,
+        positions: Sequence[Sequence[float]],
+        label: str = "",
+        steps: int | None = None,
+    ) -> picture.Scene:
+        """What a picture of this maze shows: the final ``positions`` (x, y) in evaluation
+        order, and the first ``steps`` steps (None: all) of ``network``'s episode
+        (:meth:`trajectory`) when a network is given; ``label`` ends the title."""
+        trajectory = None
+        if network is not None:
+            shown = self.maze.steps if steps is None else min(steps, self.maze.steps)
+            net = compile_network(network, N_INPUTS, 2)
+            trajectory = self.trajectory(net)[: shown + 1]
+        points = np.array(positions, dtype=np.float64).reshape(-1, 2)
+        title = picture.title(self.id, self.deception, label)
+        return picture.Scene(self.maze, GOAL_RADIUS, points, trajectory, title)
+
+    def _ending(self, trajectory: np.ndarray) -> str:
+        distance = self.goal_distance(*trajectory[-1])
+        steps = len(trajectory) - 1
+        return f"ends {distance:.1f} units from the goal after {steps} of {self.maze.steps} steps"
+
+    def replay(self, network: Network, steps: int, out: Path) -> str:
+        """Draw the maze and ``network``'s path over at most ``steps`` steps into ``out``."""
+        scene = self.scene(network, (), steps=steps)
+        summary = f"the network {self._ending(scene.trajectory)}"
+        title = picture.title(self.id, self.deception, summary)
+        picture.write(replace(scene, title=title, path_name="the network's trajectory"), out)
+        return f"{out}: {summary}"
+
+    def draw_run(
+        self,
+        network: Network | None,
+        behaviours: Sequence[Sequence[float]],
+        out: str | Path | BinaryIO,
+        label: str = "",
+        steps: int | None = None,
+    ) -> str:
+        """Draw the maze, the run's final positions (``behaviours``: (x, y) in evaluation
+        order) and its best network's path into ``out``."""
+        scene = self.scene(network, behaviours, label, steps)
+        picture.write(scene, out)
+        drawn = f"{len(scene.positions):,} final positions of evaluations"
+        if scene.trajectory is None:
+            return f"{drawn}; no best network"
+        return f"{drawn}; the best network {self._ending(scene.trajectory)}"
 
     def evaluate(self, net: CompiledNetwork) -> Evaluation:
         no_record = np.empty((0, 2), dtype=np.float64)
@@ -101,8 +160,7 @@ class MazeTask(Task):
         return [self._evaluation(x, y) for x, y in final.tolist()]
 
     def success_test(self, net: CompiledNetwork, evaluation: Evaluation) -> SuccessCheck:
-        x, y = self.evaluate(net).behaviour
-        distance = math.hypot(x - self.goal[0], y - self.goal[1])
+        distance = self.goal_distance(*self.evaluate(net).behaviour)
         return SuccessCheck(
             solved=distance <= GOAL_RADIUS, evaluations=1, details={"final_distance": distance}
         )
