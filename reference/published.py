@@ -15,6 +15,8 @@ File layout (one file per task family)::
     provenance = "VERIFIED-QUOTE"      # see PROVENANCE
     note = "..."                       # optional
     not_comparable = "..."             # optional: why no run of ours is comparable with it
+    method_keys = ["evolver.selection"]  # optional: protocol keys naming the method (a run
+                                       # differing on one is not shown beside the figure)
     protocol = { "evolver.population_size" = 150, "task.start_angle" = 0.0175 }
     values = { mean_evaluations = 4755, sd_evaluations = 2553 }
 
@@ -82,6 +84,21 @@ class ReferenceFigure:
     protocol: Mapping[str, Any] = field(default_factory=dict)
     note: str = ""
     not_comparable: str = ""
+    method_keys: tuple[str, ...] = ()
+
+    def other_method(
+        self, task_settings: Mapping[str, Any], evolver_config: Mapping[str, Any]
+    ) -> bool:
+        """True when a run differs from the figure on one of its ``method_keys``, the
+        protocol keys that say which method it is of (``evolver.selection`` tells novelty
+        search from objective NEAT): the run is of another method, and the figure is not
+        shown beside it."""
+        scopes = {"task": task_settings, "evolver": evolver_config}
+        for key in self.method_keys:
+            scope, _, name = key.partition(".")
+            if not _same(scopes.get(scope, {}).get(name), self.protocol[key]):
+                return True
+        return False
 
     @property
     def from_memory(self) -> bool:
@@ -156,6 +173,9 @@ def _parse(doc: Mapping[str, Any], where: str) -> list[ReferenceFigure]:
             raise NeuroyardError(
                 f"{label}: protocol keys must start with {', '.join(PROTOCOL_SCOPES)}: {bad}"
             )
+        loose = set(item.get("method_keys", ())) - set(item.get("protocol", {}))
+        if loose:
+            raise NeuroyardError(f"{label}: method_keys not in its protocol: {sorted(loose)}")
         out.append(
             ReferenceFigure(
                 task=item["task"],
@@ -167,6 +187,7 @@ def _parse(doc: Mapping[str, Any], where: str) -> list[ReferenceFigure]:
                 protocol=dict(item.get("protocol", {})),
                 note=item.get("note", ""),
                 not_comparable=item.get("not_comparable", ""),
+                method_keys=tuple(item.get("method_keys", ())),
             )
         )
     return out

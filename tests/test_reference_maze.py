@@ -44,3 +44,13 @@ def test_every_maze_figure_is_the_phenomenon_only_and_never_gates():
         # even a run of ours with the same selection and budget is not comparable
         same = {"selection": f.protocol["evolver.selection"]}
         assert f.mismatches({}, same, {"budget": 250_000}) == [PHENOMENON_ONLY]
+
+
+def test_a_figure_is_shown_beside_its_own_method_only():
+    """The report puts a novelty-search figure beside novelty-search runs and an objective
+    NEAT figure beside objective runs, never crosswise (method_keys)."""
+    novelty, objective = {"selection": "novelty"}, {"selection": "fitness"}
+    for f in figures_for("maze-hard-v2"):
+        own = f.protocol["evolver.selection"]
+        assert f.other_method({}, novelty) is (own != "novelty")
+        assert f.other_method({}, objective) is (own != "fitness")

@@ -138,7 +138,9 @@ def _comparisons(records: Sequence[RunRecord], s: GroupSummary) -> tuple[Compari
     first = records[0]
     out = []
     for fig in figures_for(first.task):
-        if fig.compare_with != first.evolver:
+        if fig.compare_with != first.evolver or fig.other_method(
+            first.task_settings, first.evolver_settings or first.config
+        ):
             continue
         mismatches = tuple(
             fig.mismatches(
