@@ -94,11 +94,9 @@ class ReferenceFigure:
         search from objective NEAT): the run is of another method, and the figure is not
         shown beside it."""
         scopes = {"task": task_settings, "evolver": evolver_config}
-        for key in self.method_keys:
-            scope, _, name = key.partition(".")
-            if not _same(scopes.get(scope, {}).get(name), self.protocol[key]):
-                return True
-        return False
+        return any(
+            not _same(_recorded(key, scopes), self.protocol[key]) for key in self.method_keys
+        )
 
     @property
     def from_memory(self) -> bool:
@@ -140,13 +138,18 @@ class ReferenceFigure:
         scopes = {"task": task_settings, "evolver": evolver_config, "run": run_settings or {}}
         out = [self.not_comparable] if self.not_comparable else []
         for key, expected in self.full_protocol.items():
-            scope, _, name = key.partition(".")
-            actual = scopes[scope].get(name)
+            actual = _recorded(key, scopes)
             if actual is None:
                 out.append(f"{key} not recorded (published: {expected!r})")
             elif not _same(actual, expected):
                 out.append(f"{key}={actual!r} (published: {expected!r})")
         return out
+
+
+def _recorded(key: str, scopes: Mapping[str, Mapping[str, Any]]) -> Any:
+    """The run's value of protocol key ``scope.name`` (None when it records none)."""
+    scope, _, name = key.partition(".")
+    return scopes.get(scope, {}).get(name)
 
 
 def _same(a: Any, b: Any) -> bool:

@@ -24,15 +24,14 @@ from neuroyard.tasks.maze import load_maze, sense, shipped_maze
 from neuroyard.tasks.maze.robot import MAX_SPEED, RADIUS, RANGE, blocked
 
 POSES = 300
-GENERATED = [{"size": size, "seed": 4, "deception": 1.0} for size in (1, 2)]
-MAZES = ["open", "medium", "hard"] + [f"gen size {g['size']}" for g in GENERATED]
+GENERATED = {f"gen size {size}": {"size": size, "seed": 4, "deception": 1.0} for size in (1, 2)}
+MAZES = ["open", "medium", "hard", *GENERATED]
 
 
 def maze_named(name: str):
     """A shipped maze, or a generated one (the most deceptive the seed gives)."""
-    if name.startswith("gen"):
-        settings = GENERATED[[f"gen size {g['size']}" for g in GENERATED].index(name)]
-        return tasks.make("maze-gen-v2", **settings).maze
+    if name in GENERATED:
+        return tasks.make("maze-gen-v2", **GENERATED[name]).maze
     return load_maze(shipped_maze(name), RADIUS)
 
 

@@ -291,8 +291,9 @@ def _generations(
             task_spec.max_fitness,
             generation,
         )
-        for result in results:
-            behaviours.add(result.behaviour)
+        if task_spec.behaviour_size:  # no call per evaluation for tasks without behaviour
+            for result in results:
+                behaviours.add(result.behaviour)
         record.evaluations += len(batch)
         record.generations += 1
         clock.watch.progress(record.generations, record.evaluations)

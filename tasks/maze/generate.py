@@ -27,7 +27,7 @@ from functools import lru_cache
 import numpy as np
 
 from .deception import Deception, measure
-from .mazefile import Maze, arena_sides, segment_distance
+from .mazefile import Maze, arena_sides, wall_within
 
 ARENA = 200.0  # units of length, the side of the square arena (as our shipped mazes)
 CANDIDATES = 24
@@ -94,8 +94,9 @@ def candidate(size: int, seed: int, k: int) -> Maze:
 def usable(maze: Maze, radius: float) -> bool:
     """True when the start and the goal lie at least ``radius`` from every wall (the rule
     of the maze file format)."""
-    points = (maze.start[:2], maze.goal)
-    return all(segment_distance(x, y, wall) >= radius for x, y in points for wall in maze.walls)
+    return all(
+        wall_within(maze.walls, x, y, radius) is None for x, y in (maze.start[:2], maze.goal)
+    )
 
 
 @lru_cache(maxsize=64)

@@ -80,6 +80,15 @@ def segment_distance(px: float, py: float, wall: np.ndarray) -> float:
     return math.hypot(px - (x1 + t * ex), py - (y1 + t * ey))
 
 
+def wall_within(walls: np.ndarray, x: float, y: float, clearance: float) -> int | None:
+    """Index of the first wall of ``walls`` (n, 4) closer than ``clearance`` to (x, y), or
+    None: the rule a maze's start and goal must keep."""
+    for k, wall in enumerate(walls):
+        if segment_distance(x, y, wall) < clearance:
+            return k
+    return None
+
+
 class _Reader:
     """Reads one file's entries; every error names the file and the entry."""
 
@@ -161,12 +170,12 @@ def parse_maze(text: str, where: str, clearance: float) -> Maze:
         x, y = place["x"], place["y"]
         if not (0.0 <= x <= width and 0.0 <= y <= height):
             raise read.fail(name, f"({x}, {y}) lies outside the bounds")
-        for k, wall in enumerate(walls):
-            if segment_distance(x, y, wall) < clearance:
-                what = f"walls[{k}]" if k < len(segments) else "a side of the arena"
-                raise read.fail(
-                    name, f"({x}, {y}) lies within {clearance:g} (the robot's radius) of {what}"
-                )
+        k = wall_within(walls, x, y, clearance)
+        if k is not None:
+            what = f"walls[{k}]" if k < len(segments) else "a side of the arena"
+            raise read.fail(
+                name, f"({x}, {y}) lies within {clearance:g} (the robot's radius) of {what}"
+            )
     return Maze(
         name=where,
         width=width,
