@@ -279,3 +279,16 @@ class DiesInHarness:
 
     def tell(self, evaluations):
         pass
+
+
+class Unhurried(Healthy):
+    """Well-behaved but slow: each ask() takes ``pause`` seconds, so a test can disturb a run
+    from outside (kill its worker) while it is in progress. Its record must not show it."""
+
+    def __init__(self, pause: float = 0.05) -> None:
+        super().__init__()
+        self.pause = pause
+
+    def ask(self):
+        time.sleep(self.pause)
+        return super().ask()

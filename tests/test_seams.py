@@ -153,7 +153,9 @@ def test_task_metrics_reach_the_report_and_the_export(tmp_path, capsys) -> None:
     assert solved and all(x["metrics"]["generalization"] >= 200 for x in solved)
 
 
-def test_a_renderer_is_found_by_name() -> None:
+def test_a_renderer_is_found_by_name(monkeypatch) -> None:
+    monkeypatch.setattr(renderers, "_RENDERERS", dict(renderers._RENDERERS))  # kept to itself
+
     @renderers.register_renderer("count-test")
     def count(rows) -> str:
         return f"{len(rows)} rows"

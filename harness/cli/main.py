@@ -34,7 +34,7 @@ from neuroyard.harness.core.network import validate
 from neuroyard.harness.core.options import distribute
 from neuroyard.harness.execution import crashlog
 from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.executors import make_executor
+from neuroyard.harness.execution.executors import Executor, make_executor
 from neuroyard.harness.execution.runner import RunFault, bound_fitness
 from neuroyard.harness.execution.supervisor import (
     DEFAULT_MEMORY_LIMIT_MB,
@@ -167,6 +167,18 @@ def build_parser() -> argparse.ArgumentParser:
         action="store_true",
         help="run in this process, one run at a time, with no time or memory limit (debugging)",
     )
+    r.add_argument(
+        "--scheduler",
+        metavar="ADDRESS",
+        help="run on the Dask cluster whose scheduler is at ADDRESS (tcp://HOST:PORT); "
+        "the workers need neuroyard installed",
+    )
+    r.add_argument(
+        "--cluster",
+        choices=("local",),
+        help="local: start a Dask cluster of --workers processes on this machine (loopback "
+        "only) and run on it",
+    )
     r.add_argument("--quiet", action="store_true", help="no progress bar and no report")
 
     rp = sub.add_parser("report", help="summarise the runs in a store")
@@ -217,11 +229,39 @@ def _plan(args: argparse.Namespace) -> CampaignPlan:
     return CampaignPlan(evolvers, tasks, args.runs, args.seed, args.budget)
 
 
+def _executor(args: argparse.Namespace, limits: Limits) -> Executor:
+    """The executor ``run``'s options ask for: in this process, on a Dask cluster (an
+    existing scheduler's or a local one), or the pool of supervised worker processes."""
+    chosen = [
+        name
+        for name, given in (
+            ("--in-process", args.in_process),
+            ("--scheduler", args.scheduler),
+            ("--cluster", args.cluster),
+        )
+        if given
+    ]
+    if len(chosen) > 1:
+        raise NeuroyardError(f"run: {' and '.join(chosen)} exclude each other; give one")
+    if args.in_process:
+        return make_executor("in-process", args.workers, limits)
+    if args.scheduler:
+        return make_executor("dask", args.workers, limits, scheduler=args.scheduler)
+    if args.cluster:
+        return make_executor("dask", args.workers, limits)
+    return make_executor("pool", args.workers, limits)
+
+
 def _cmd_run(args: argparse.Namespace) -> None:
     plan = _plan(args)
     limits = Limits(args.time_limit, args.memory_limit, args.max_batch)
-    with ResultStore(args.store) as store:
-        executor = make_executor("in-process" if args.in_process else "pool", args.workers, limits)
+    executor = _executor(args, limits)  # before the store: a cluster that fails writes nothing
+    try:
+        opened = ResultStore(args.store)
+    except BaseException:
+        executor.close()
+        raise
+    with opened as store:
         outcome = execute(plan, store, executor, progress=not args.quiet)
         if outcome.internal_errors:
             raise InternalError(

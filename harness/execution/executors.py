@@ -1,29 +1,36 @@
 """The executor seam: what runs a campaign's runs, found by name.
 
 A campaign (:func:`~.campaign.execute`) hands runs to an executor and collects them; it
-never knows where they run. An executor has room for ``capacity`` runs at once, takes a
+never knows where they run. An executor has room for ``capacity`` runs at once (read each
+time the campaign hands out runs, so a cluster may grow), takes a
 :class:`~neuroyard.harness.records.runs.RunSpec` with ``submit``, gives back the runs that
 are over with ``collect`` (waiting at most ``timeout`` seconds for one) as
 :class:`~.supervisor.Finished` items, and ends everything it started with ``close``.
 An executor never writes the store: the campaign's coordinator does.
 
 Built in: ``pool`` (supervised worker processes on this machine, :class:`~.supervisor.
-Supervisor`) and ``in-process`` (this process, one run at a time, for debugging). A
-distributed executor is one more class with the same four members and one more entry here.
+Supervisor`) and ``in-process`` (this process, one run at a time, for debugging). Others
+are found by name in the entry-point group ``neuroyard.executors`` and loaded on first use:
+neuroyard registers ``dask`` there (:mod:`.dask_executor`). A factory is called as
+``factory(workers, limits, **options)``.
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
-from typing import Protocol
+from importlib.metadata import entry_points
+from typing import Any, Protocol
 
 from neuroyard.harness.core.errors import NeuroyardError
 from neuroyard.harness.execution.supervisor import Finished, InProcess, Limits, Supervisor
 from neuroyard.harness.records.runs import RunSpec
 
+ENTRY_POINT_GROUP = "neuroyard.executors"
+
 
 class Executor(Protocol):
-    capacity: int
+    @property
+    def capacity(self) -> int: ...
 
     def submit(self, spec: RunSpec) -> None: ...
 
@@ -32,18 +39,30 @@ class Executor(Protocol):
     def close(self) -> None: ...
 
 
-# name -> factory(workers, limits)
-EXECUTORS: dict[str, Callable[[int, Limits], Executor]] = {
-    "pool": Supervisor,
+ExecutorFactory = Callable[..., Executor]
+
+BUILT_IN: dict[str, ExecutorFactory] = {
+    "pool": lambda workers, limits: Supervisor(workers, limits),
     "in-process": lambda workers, limits: InProcess(limits),
 }
 
 
-def make_executor(name: str, workers: int = 1, limits: Limits | None = None) -> Executor:
-    """The executor registered as ``name`` with ``workers`` parallel runs under ``limits``."""
-    try:
-        factory = EXECUTORS[name]
-    except KeyError:
-        known = ", ".join(EXECUTORS)
-        raise NeuroyardError(f"unknown executor {name!r} (known: {known})") from None
-    return factory(workers, limits or Limits())
+def executor_names() -> list[str]:
+    """Every executor name: the built-in ones, then those of the entry-point group."""
+    found = sorted(ep.name for ep in entry_points(group=ENTRY_POINT_GROUP))
+    return [*BUILT_IN, *(name for name in found if name not in BUILT_IN)]
+
+
+def make_executor(
+    name: str, workers: int = 1, limits: Limits | None = None, **options: Any
+) -> Executor:
+    """The executor registered as ``name`` with ``workers`` parallel runs under ``limits``
+    and the executor's own ``options`` (the ``dask`` executor's ``scheduler``)."""
+    factory = BUILT_IN.get(name)
+    if factory is None:
+        found = [ep for ep in entry_points(group=ENTRY_POINT_GROUP) if ep.name == name]
+        if not found:
+            known = ", ".join(executor_names())
+            raise NeuroyardError(f"unknown executor {name!r} (known: {known})")
+        factory = found[0].load()
+    return factory(workers, limits or Limits(), **options)

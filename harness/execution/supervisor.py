@@ -98,7 +98,7 @@ class _Worker:
         self.conn, child = context.Pipe()
         self.process = context.Process(
             target=worker.main,
-            args=(child, self.status, limits.max_batch, limits.memory_limit_mb, os.getpid()),
+            args=(child, self.status, limits.max_batch, limits.memory_limit_mb),
             daemon=True,
         )
         # A Ctrl-C while the process starts must not reach it: it inherits SIG_IGN.
@@ -138,12 +138,16 @@ class _Worker:
 
 
 class Supervisor:
-    """Runs on up to ``workers`` supervised worker processes (see module docstring)."""
+    """Runs on up to ``workers`` supervised worker processes (see module docstring).
+    ``start_method``: how worker processes start (:mod:`multiprocessing`'s ``fork``,
+    ``spawn`` or ``forkserver``); default ``fork`` on Linux, ``spawn`` elsewhere."""
 
-    def __init__(self, workers: int, limits: Limits | None = None) -> None:
+    def __init__(
+        self, workers: int, limits: Limits | None = None, start_method: str = START_METHOD
+    ) -> None:
         self.capacity = workers
         self.limits = limits or Limits()
-        self.context = multiprocessing.get_context(START_METHOD)
+        self.context = multiprocessing.get_context(start_method)
         self.workers: list[_Worker] = []
 
     def submit(self, spec: RunSpec, attempts: int = 1) -> None:

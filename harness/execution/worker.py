@@ -78,7 +78,8 @@ class SharedWatch:
 
 
 def _exit_with_parent(parent: int) -> None:
-    """End this process soon after the coordinator is gone (never returns)."""
+    """End this process soon after ``parent`` (the process that started it) is gone
+    (never returns)."""
     while os.getppid() == parent:
         time.sleep(1.0)
     os._exit(0)
@@ -106,12 +107,12 @@ def _limit_memory(megabytes: int | None) -> None:
     resource.setrlimit(resource.RLIMIT_AS, (soft, hard))
 
 
-def main(
-    conn: Connection, status: Any, max_batch: int, memory_limit_mb: int | None, parent: int
-) -> None:
+def main(conn: Connection, status: Any, max_batch: int, memory_limit_mb: int | None) -> None:
     """The worker's loop (the target of its process); see the module docstring."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     os.setpgrp()
+    # the process that started this one: the coordinator, or a forkserver of it
+    parent = os.getppid()
     threading.Thread(target=_exit_with_parent, args=(parent,), daemon=True).start()
     watch = SharedWatch(status)
     while True:
