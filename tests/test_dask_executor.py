@@ -9,8 +9,11 @@ the command line's cluster options fail with one line and status 2 on bad input.
 
 from __future__ import annotations
 
+import json
 import os
+import re
 import signal
+import subprocess
 import sys
 import time
 from pathlib import Path
@@ -29,6 +32,7 @@ from neuroyard.harness.records.runs import FAILED
 from neuroyard.harness.records.store import ResultStore
 
 HERE = Path(__file__).parent
+README = HERE.parent / "README.md"
 PLAN = CampaignPlan(
     [
         EvolverSpec("neat", {"population_size": 50}),
@@ -79,6 +83,8 @@ def test_same_records_in_process_in_the_pool_and_on_a_cluster(tmp_path, cluster)
             outcome = execute(PLAN, store, executor, progress=False)
         assert outcome.done == len(PLAN.expand()) and outcome.internal_errors == 0
         runs[name] = stored(path)
+    assert cluster.scheduler_address.startswith("tcp://127.0.0.1:")  # loopback only
+    assert all(w.startswith("tcp://127.0.0.1:") for w in cluster.scheduler_info["workers"])
     assert len(runs["in-process"]) == 18
     assert any(record["status"] == "solved" for record in runs["in-process"].values())
     assert runs["pool"] == runs["in-process"]
@@ -173,3 +179,84 @@ def test_the_command_line_runs_a_campaign_on_a_local_cluster(tmp_path, capsys):
     assert main([*args, "--quiet"]) == 0  # the same campaign through the pool: nothing to do
     with ResultStore(store, write=False) as opened:
         assert len(list(opened.records(with_log=False))) == 2
+
+
+@pytest.fixture
+def scheduler_and_worker(tmp_path, request):
+    """A Dask scheduler and one worker started as separate processes by Dask's own command
+    line, as a batch system starts them; the worker daemonic or not (``request.param``)."""
+    info = tmp_path / "scheduler.json"
+    quiet = {"stdout": subprocess.DEVNULL, "stderr": subprocess.DEVNULL}
+    scheduler = subprocess.Popen(
+        [sys.executable, "-m", "distributed.cli.dask_scheduler", "--host", "127.0.0.1"]
+        + ["--port", "0", "--no-dashboard", "--scheduler-file", str(info)],
+        **quiet,
+    )
+    env = {**os.environ, "DASK_DISTRIBUTED__WORKER__DAEMON": str(request.param)}
+    worker = None
+    try:
+        deadline = time.monotonic() + 30
+        while not info.exists() and time.monotonic() < deadline:
+            time.sleep(0.1)
+        address = json.loads(info.read_text())["address"]
+        worker = subprocess.Popen(
+            [sys.executable, "-m", "distributed.cli.dask_worker", address, "--nthreads", "1"]
+            + ["--host", "127.0.0.1", "--no-dashboard"],
+            env=env,
+            **quiet,
+        )
+        with distributed.Client(address) as client:
+            client.wait_for_workers(1, timeout=30)
+        yield address
+    finally:
+        for process in (worker, scheduler):
+            if process is not None:
+                process.terminate()
+                process.wait(timeout=30)
+
+
+@pytest.mark.parametrize("scheduler_and_worker", [False], indirect=True)
+def test_a_campaign_runs_on_an_existing_scheduler(tmp_path, scheduler_and_worker):
+    store = tmp_path / "runs.sqlite"
+    args = ["run", "--evolver", "rwg", "--task", "xor-v2", "--runs", "3", "--budget", "300"]
+    assert main([*args, "--scheduler", scheduler_and_worker, "--store", str(store), "--quiet"]) == 0
+    with ResultStore(store, write=False) as opened:
+        records = list(opened.records(with_log=False))
+    assert sorted(r.run_index for r in records) == [0, 1, 2]
+
+
+@pytest.mark.parametrize("scheduler_and_worker", [True], indirect=True)
+def test_a_daemonic_worker_is_refused_before_any_run(tmp_path, capsys, scheduler_and_worker):
+    store = tmp_path / "runs.sqlite"
+    status = main(["run", "--scheduler", scheduler_and_worker, "--store", str(store), "--quiet"])
+    err = capsys.readouterr().err.strip()
+    assert status == 2
+    assert re.fullmatch(
+        r"neuroyard: error: the Dask worker at tcp://127\.0\.0\.1:\d+ is a daemonic process "
+        r"and cannot supervise runs: start the workers with distributed\.worker\.daemon off "
+        r"\(DASK_DISTRIBUTED__WORKER__DAEMON=False in their environment\)",
+        err,
+    ), err
+    assert not store.exists()
+
+
+def test_the_readmes_batch_system_configuration_starts_workers_that_can_supervise_runs():
+    """The README's dask-jobqueue example (its first ``python`` block after "HPC batch
+    system"), built without submitting: the job script starts one single-threaded, not
+    daemonic worker per job, on the scheduler's address."""
+    jobqueue = pytest.importorskip("dask_jobqueue")
+    text = README.read_text()
+    block = re.search(r"HPC batch system.*?```python\n(.*?)```", text, re.S)
+    assert block, "README: no python block after 'HPC batch system'"
+    code = block.group(1).split("cluster.scale")[0]  # build the cluster, submit no job
+    namespace: dict = {}
+    exec(code, namespace)
+    cluster = namespace["cluster"]
+    try:
+        assert isinstance(cluster, jobqueue.SLURMCluster)
+        script = cluster.job_script()
+        assert "export DASK_DISTRIBUTED__WORKER__DAEMON=False" in script
+        assert "--nthreads 1" in script
+        assert cluster.scheduler_address in script
+    finally:
+        cluster.close()

@@ -5,8 +5,11 @@ address, or a :class:`distributed.LocalCluster` on this machine bound to loopbac
 collects what comes back; only the coordinator writes the store. On the Dask worker, the
 run executes under a :class:`~.supervisor.Supervisor` of its own (:func:`supervised_run`),
 so the time and memory limits and every fault rule of the pool hold there too: a
-misbehaving evolver fails its own run and the Dask worker lives on. Its worker processes
-start from a forkserver, since forking a Dask worker's threads is unsafe.
+misbehaving evolver fails its own run and the Dask worker lives on. As in the pool, the
+supervised worker process is forked where the platform allows it (Linux): the Dask worker's
+other threads (its event loop, its task threads) hold no lock the forked process needs,
+which runs neuroyard's own code only (CPython renews the import lock after a fork). A
+forkserver would import everything a second time, about a second per Dask worker.
 
 A Dask worker that is lost mid-run (killed, its machine gone) has its run started again on
 another worker by the Dask scheduler; a run depends only on its spec, so the record equals
@@ -17,7 +20,8 @@ stored, run again when the campaign resumes.
 The supervised run starts processes of its own, which Python forbids in a daemonic
 process: Dask workers must run with ``distributed.worker.daemon`` off (the Dask setting;
 ``DASK_DISTRIBUTED__WORKER__DAEMON=False`` in their environment). :func:`local_cluster`
-sets it for the workers it starts.
+sets it for the workers it starts, and forks them from this process where the platform
+allows it, so that they start with neuroyard already imported.
 """
 
 from __future__ import annotations
@@ -31,32 +35,47 @@ import dask
 import distributed
 
 from neuroyard.harness.core.errors import NeuroyardError
-from neuroyard.harness.execution.supervisor import Finished, Limits, Supervisor
+from neuroyard.harness.execution.supervisor import START_METHOD, Finished, Limits, Supervisor
 from neuroyard.harness.records.runs import RunSpec
 
 CONNECT_TIMEOUT = 10.0  # s to reach a scheduler before giving up (ours)
-# imported once by the forkserver, so that each supervised worker starts ready
-PRELOAD = ["neuroyard.harness.execution.worker", "neuroyard.tasks", "neuroyard.reference"]
-NOT_DAEMON = {"distributed.worker.daemon": False}
+# Dask settings for the workers local_cluster starts: not daemonic (see the module
+# docstring), and forked from this process where the platform allows it, as the pool's are.
+LOCAL_WORKERS = {
+    "distributed.worker.daemon": False,
+    "distributed.worker.multiprocessing-method": START_METHOD,
+}
+
+# Runs handed to the cluster per worker thread: one running, one waiting, so a worker that
+# ends a run starts the next at once instead of waiting for the coordinator (ours).
+QUEUED_PER_THREAD = 2
 
 _local = threading.local()  # one supervisor per Dask worker thread
 
 
+NOT_DAEMON_HINT = (
+    "start the workers with distributed.worker.daemon off "
+    "(DASK_DISTRIBUTED__WORKER__DAEMON=False in their environment)"
+)
+
+
+def _daemonic() -> bool:
+    return multiprocessing.current_process().daemon
+
+
 def supervised_run(spec: RunSpec, limits: Limits) -> Finished:
     """Run ``spec`` under this thread's supervisor (one worker process, reused by later runs
-    with the same limits) and return what came of it; the function a Dask task calls."""
-    if multiprocessing.current_process().daemon:
+    with the same limits, so kernels load once) and return what came of it; the function a
+    Dask task calls."""
+    if _daemonic():
         raise NeuroyardError(
-            "this Dask worker is a daemonic process and cannot supervise a run: start the "
-            "workers with distributed.worker.daemon off (DASK_DISTRIBUTED__WORKER__DAEMON=False)"
+            f"this Dask worker is a daemonic process and cannot supervise a run: {NOT_DAEMON_HINT}"
         )
     supervisor = getattr(_local, "supervisor", None)
     if supervisor is None or supervisor.limits != limits:
         if supervisor is not None:
             supervisor.close()
-        context = multiprocessing.get_context("forkserver")
-        context.set_forkserver_preload(PRELOAD)
-        supervisor = _local.supervisor = Supervisor(1, limits, start_method="forkserver")
+        supervisor = _local.supervisor = Supervisor(1, limits)
     supervisor.submit(spec)
     while True:
         for finished in supervisor.collect(timeout=1.0):
@@ -65,9 +84,9 @@ def supervised_run(spec: RunSpec, limits: Limits) -> Finished:
 
 def local_cluster(workers: int) -> distributed.LocalCluster:
     """A cluster of ``workers`` Dask worker processes on this machine, one thread each,
-    listening on loopback only. Turns ``distributed.worker.daemon`` off
-    in this process for good: a nanny reads it again whenever it restarts a lost worker."""
-    dask.config.set(NOT_DAEMON)
+    listening on loopback only. Sets :data:`LOCAL_WORKERS` in this process's Dask
+    configuration for good: a nanny reads it again whenever it restarts a lost worker."""
+    dask.config.set(LOCAL_WORKERS)
     return distributed.LocalCluster(
         n_workers=workers,
         threads_per_worker=1,
@@ -90,8 +109,9 @@ def connect(address: str) -> distributed.Client:
 class DaskExecutor:
     """The executor interface (:mod:`.executors`) over a Dask client.
 
-    ``capacity`` is the cluster's number of worker threads at the time it is read (at
-    least 1, so a cluster that is still starting its workers queues one run). ``cluster``:
+    ``capacity`` is :data:`QUEUED_PER_THREAD` runs for each of the cluster's worker threads
+    at the time it is read (for at least one thread, so a cluster that is still starting its
+    workers queues runs for it). ``cluster``:
     a cluster this executor started and closes with itself (None for an existing
     scheduler's, which is left running)."""
 
@@ -108,7 +128,7 @@ class DaskExecutor:
 
     @property
     def capacity(self) -> int:
-        return max(1, sum(self.client.nthreads().values()))
+        return QUEUED_PER_THREAD * max(1, sum(self.client.nthreads().values()))
 
     def submit(self, spec: RunSpec) -> None:
         future = self.client.submit(
@@ -150,9 +170,18 @@ class DaskExecutor:
 
 
 def dask_executor(workers: int, limits: Limits, scheduler: str | None = None) -> DaskExecutor:
-    """A :class:`DaskExecutor` on the scheduler at ``scheduler``, or (None) on a new
+    """A :class:`DaskExecutor` on the scheduler at ``scheduler`` (whose workers must not be
+    daemonic: a :class:`NeuroyardError` naming the first that is), or (None) on a new
     :func:`local_cluster` of ``workers`` workers."""
     if scheduler is not None:
-        return DaskExecutor(connect(scheduler), limits)
+        client = connect(scheduler)
+        daemonic = sorted(address for address, is_so in client.run(_daemonic).items() if is_so)
+        if daemonic:
+            client.close()
+            raise NeuroyardError(
+                f"the Dask worker at {daemonic[0]} is a daemonic process and cannot "
+                f"supervise runs: {NOT_DAEMON_HINT}"
+            )
+        return DaskExecutor(client, limits)
     cluster = local_cluster(workers)
     return DaskExecutor(distributed.Client(cluster), limits, cluster)
