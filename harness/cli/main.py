@@ -18,7 +18,7 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any, NoReturn
 
-from neuroyard.harness.cli import compare_command, gate, listing, replay
+from neuroyard.harness.cli import compare_command, gate, listing, merge_command, replay
 from neuroyard.harness.cli.output import check_output, write_output
 from neuroyard.harness.core import jsonsafe
 from neuroyard.harness.core.batch import compile_network
@@ -42,6 +42,7 @@ from neuroyard.harness.execution.supervisor import (
     Limits,
 )
 from neuroyard.harness.records.runs import record_key
+from neuroyard.harness.records.shares import WHOLE, Share
 from neuroyard.harness.records.store import DEFAULT_PATH, ResultStore
 from neuroyard.harness.reports import renderers, report
 from neuroyard.tasks import make
@@ -87,6 +88,14 @@ def _level(text: str) -> float:
     if not 0 < value < 1:
         raise argparse.ArgumentTypeError(f"must lie strictly between 0 and 1, got {text}")
     return value
+
+
+def _share(text: str) -> Share:
+    """An argparse type: K/N, job K of N."""
+    try:
+        return Share.parse(text)
+    except ValueError as exc:
+        raise argparse.ArgumentTypeError(str(exc)) from None
 
 
 def _assignment(text: str) -> tuple[str, Any]:
@@ -140,6 +149,13 @@ def build_parser() -> argparse.ArgumentParser:
         "campaign that has it",
     )
     r.add_argument("--workers", type=_positive, default=1, help="parallel worker processes")
+    r.add_argument(
+        "--share",
+        type=_share,
+        default=WHOLE,
+        metavar="K/N",
+        help="run only share K of N of the campaign (batch job K of N; see `neuroyard merge`)",
+    )
     r.add_argument(
         "--time-limit",
         type=_number(float, zero_is_none=True),
@@ -205,6 +221,7 @@ def build_parser() -> argparse.ArgumentParser:
     ev.add_argument("--setting", type=_assignment, action="append", default=[], metavar="KEY=VALUE")
 
     replay.add_parser(sub, _positive)
+    merge_command.add_parser(sub)
     compare_command.add_parser(sub, _level)
     gate.add_parsers(sub, _positive, _number, _level)
     return p
@@ -262,7 +279,7 @@ def _cmd_run(args: argparse.Namespace) -> None:
         executor.close()
         raise
     with opened as store:
-        outcome = execute(plan, store, executor, progress=not args.quiet)
+        outcome = execute(plan, store, executor, progress=not args.quiet, share=args.share)
         if outcome.internal_errors:
             raise InternalError(
                 f"{outcome.internal_errors} run(s) stopped on an internal error and were not "
@@ -341,6 +358,7 @@ COMMANDS = {
     "evaluate": _cmd_evaluate,
     "replay": replay.command,
     "compare": compare_command.command,
+    "merge": merge_command.command,
     **gate.COMMANDS,
 }
 

@@ -6,7 +6,9 @@ every task setting, defaults merged), so asking for a default explicitly changes
 Runs execute on an executor (:mod:`.executors`: supervised worker processes, or this
 process for debugging); either way only this coordinator process writes to the store,
 one transaction per finished run. Several coordinators may run the same campaign on one
-store at once: they claim runs before starting them and so split the work.
+store at once: they claim runs before starting them and so split the work. A batch job
+may run only a share of the plan (:mod:`~neuroyard.harness.records.shares`) into a store
+of its own; ``neuroyard merge`` combines the shares' stores afterwards.
 """
 
 from __future__ import annotations
@@ -30,6 +32,7 @@ from neuroyard.harness.core.evolver_registry import EvolverSpec
 from neuroyard.harness.execution import crashlog
 from neuroyard.harness.execution.executors import Executor, make_executor
 from neuroyard.harness.records.runs import RunRecord, RunSpec
+from neuroyard.harness.records.shares import WHOLE, Share
 from neuroyard.harness.records.store import ResultStore, owner_id
 from neuroyard.tasks import make
 
@@ -124,8 +127,10 @@ def execute(
     executor: Executor | None = None,
     progress: bool = True,
     on_record: Callable[[RunRecord], None] | None = None,
+    share: Share = WHOLE,
 ) -> CampaignResult:
-    """Run every run of ``plan`` not yet in ``store`` (see module docstring).
+    """Run every run of ``plan`` (of its ``share`` only, when given) not yet in ``store``
+    (see module docstring); the store records the whole plan and the share.
 
     Runs execute on ``executor`` (:mod:`.executors`; default one supervised worker
     process), which this function closes when it returns. Each pending run is claimed in the
@@ -133,8 +138,8 @@ def execute(
     only runs claimed elsewhere are left, this process waits for them (or for their claims
     to expire and takes them over). A Ctrl-C (KeyboardInterrupt) ends the workers, keeps
     every finished run, releases this process's claims and is raised again."""
-    campaign_id = store.campaign(plan.seed, plan.describe(), plan.plan_hash)
-    by_key = {spec.key: spec for spec in plan.expand()}
+    campaign_id = store.campaign(plan.seed, plan.describe(), plan.plan_hash, share)
+    by_key = {spec.key: spec for spec in share.select(plan.expand())}
     finished = store.finished_keys()
     remaining = [key for key in by_key if key not in finished]
     skipped = len(by_key) - len(remaining)

@@ -12,11 +12,16 @@ from collections.abc import Mapping
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
+from neuroyard.harness.core import jsonsafe
 from neuroyard.harness.core.evolver_registry import EvolverSpec
 
 SOLVED, UNSOLVED, FAILED = "solved", "unsolved", "failed"
 BEHAVIOUR_SAMPLE = 500  # most behaviour descriptors a run record keeps
 BEHAVIOUR_DECIMALS = 3  # decimals a kept descriptor is rounded to (a picture, not identity)
+# Fields of a record that depend on the machine and the moment, not on the run: seconds
+# (``timing``), the host name and the versions of Python, the libraries and the checkout
+# (``versions``, :mod:`neuroyard.harness.execution.provenance`).
+MACHINE_FIELDS = frozenset({"timing", "host", "versions"})
 
 
 def run_key(
@@ -84,6 +89,14 @@ def record_key(record: RunRecord) -> str:
         record.run_index,
         record.budget,
     )
+
+
+def content_digest(record: RunRecord) -> str:
+    """A hash of everything the run itself determines: the whole record, generation log
+    included, but its :data:`MACHINE_FIELDS`. Two records of one run key with different
+    digests disagree about the run."""
+    doc = {k: v for k, v in record.to_dict().items() if k not in MACHINE_FIELDS}
+    return hashlib.sha256(jsonsafe.dumps(doc, sort_keys=True).encode()).hexdigest()
 
 
 @dataclass

@@ -1,8 +1,10 @@
 """The results store: one SQLite file, one transaction per finished run.
 
 Tables: ``meta`` (schema version), ``campaigns`` (seed and plan of each campaign),
-``runs`` (one row per finished run, the full record as JSON plus the columns reports
-filter on), ``generations`` (the per-generation log) and ``claims`` (which coordinator
+``campaign_shares`` (which shares of its plan a campaign was run for: 1/1 the whole plan,
+K/N the runs of batch job K of N, :mod:`.shares`; a merged store holds the shares of its
+sources), ``runs`` (one row per finished run, the full record as JSON plus the columns
+reports filter on), ``generations`` (the per-generation log) and ``claims`` (which coordinator
 process is running which pending run). A run is written whole or not at all, so a store
 left by a killed process opens cleanly with every finished run in it, and running the same
 campaign again skips the runs whose key is already stored.
@@ -26,12 +28,14 @@ rule of :mod:`.jsonsafe`).
 Schema versions: 1 had no ``champion_test`` column in ``generations``; 2 had no
 ``non_finite_fitness`` column and no ``claims`` table; 3 keyed runs by the values as given
 (a budget or setting left at its default hashed differently from the same value given) and
-may hold former option names. An older store is read as it is (missing columns read as
-their defaults, former option names read as the current ones) and is upgraded inside the
-transaction of the first write to it, so an upgrade that fails leaves the store as it was.
-The upgrade to 4 recomputes every run's key and configuration hash from its recorded,
-resolved values (:func:`~.runs.record_key`); a run stored twice under the old keys (asked
-for once with and once without a default value) is kept once, the first stored.
+may hold former option names; 5 had no ``campaign_shares`` table (every campaign ran
+whole, so the upgrade records share 1/1 for each). An older store is read as it is (missing
+columns read as their defaults, former option names read as the current ones) and is
+upgraded inside the transaction of the first write to it, so an upgrade that fails leaves
+the store as it was. The upgrade to 4 recomputes every run's key and configuration hash
+from its recorded, resolved values (:func:`~.runs.record_key`); a run stored twice under
+the old keys (asked for once with and once without a default value) is kept once, the
+first stored.
 """
 
 from __future__ import annotations
@@ -46,16 +50,17 @@ import threading
 import time
 from collections.abc import Callable, Iterable, Iterator, Mapping
 from contextlib import contextmanager
-from dataclasses import asdict
+from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Any
 
 from neuroyard.harness.core import jsonsafe
 from neuroyard.harness.core.errors import EvolverError, StoreError
 from neuroyard.harness.core.evolver_registry import EvolverSpec, canonical_config
-from neuroyard.harness.records.runs import GenerationLog, RunRecord, record_key
+from neuroyard.harness.records.runs import GenerationLog, RunRecord, content_digest, record_key
+from neuroyard.harness.records.shares import WHOLE, Share
 
-SCHEMA_VERSION = 5
+SCHEMA_VERSION = 6
 READABLE_VERSIONS = tuple(str(v) for v in range(1, SCHEMA_VERSION + 1))  # older ones upgrade
 DEFAULT_PATH = Path("results") / "neuroyard.db"
 CLAIM_EXPIRY = 60.0  # s without a heartbeat after which a claim is void (ours)
@@ -66,6 +71,12 @@ _CLAIMS = """CREATE TABLE IF NOT EXISTS claims (
     run_key TEXT PRIMARY KEY,
     owner TEXT NOT NULL,
     heartbeat REAL NOT NULL
+)"""
+_SHARES = """CREATE TABLE IF NOT EXISTS campaign_shares (
+    campaign_id INTEGER NOT NULL REFERENCES campaigns(id),
+    share_index INTEGER NOT NULL,
+    share_count INTEGER NOT NULL,
+    PRIMARY KEY (campaign_id, share_index, share_count)
 )"""
 _SCHEMA = (
     """
@@ -106,6 +117,8 @@ CREATE TABLE IF NOT EXISTS generations (
 );
 """
     + _CLAIMS
+    + ";"
+    + _SHARES
     + ";"
 )
 
@@ -160,7 +173,40 @@ _UPGRADES: dict[int, Callable[[sqlite3.Connection], None]] = {
     ),
     3: _rekey,
     4: _rekey,
+    5: _statements(_SHARES, "INSERT OR IGNORE INTO campaign_shares SELECT id, 1, 1 FROM campaigns"),
 }
+
+
+@dataclass(frozen=True)
+class Campaign:
+    """A campaign as stored: its plan (:meth:`CampaignPlan.describe`), the plan's hash, its
+    seed, and the shares of the plan it was run for."""
+
+    plan_hash: str
+    seed: int
+    plan: dict[str, Any]
+    shares: frozenset[Share]
+
+
+@dataclass(frozen=True)
+class StoredRun:
+    """A stored run: its key, its record (with or without the log), when it was stored
+    (SQLite's ``datetime('now')``, UTC) and the store it was read from."""
+
+    key: str
+    record: RunRecord
+    finished_at: str
+    source: Path
+
+
+class RunConflict(StoreError):
+    """Two stores hold different records of one run (beyond :data:`~.runs.MACHINE_FIELDS`)."""
+
+    def __init__(self, key: str, first: Path, second: Path) -> None:
+        super().__init__(
+            f"run {key}: {first} and {second} hold different records of it "
+            "(they differ in more than timing, host and versions)"
+        )
 
 
 class ResultStore:
@@ -280,16 +326,31 @@ class ResultStore:
     def close(self) -> None:
         self.db.close()
 
-    def campaign(self, seed: int, plan: Mapping[str, Any], plan_hash: str) -> int:
-        """Id of the campaign with this plan, created on first use."""
+    def campaign(
+        self, seed: int, plan: Mapping[str, Any], plan_hash: str, share: Share = WHOLE
+    ) -> int:
+        """Id of the campaign with this plan, created on first use; ``share`` is recorded
+        among the shares of the plan it is run for."""
         with self._write() as db:
-            db.execute(
-                "INSERT OR IGNORE INTO campaigns(plan_hash, seed, plan) VALUES (?, ?, ?)",
-                (plan_hash, seed, jsonsafe.dumps(plan, sort_keys=True)),
-            )
-            return db.execute(
-                "SELECT id FROM campaigns WHERE plan_hash=?", (plan_hash,)
-            ).fetchone()[0]
+            return _add_campaign(db, seed, plan, plan_hash, [share])
+
+    def campaigns(self) -> list[Campaign]:
+        """Every campaign of the store, in the order they were first run."""
+        rows = self.db.execute("SELECT id, plan_hash, seed, plan FROM campaigns ORDER BY id")
+        found = []
+        for campaign_id, plan_hash, seed, plan in rows.fetchall():
+            if self.version < 6:  # every campaign ran whole (see the module docstring)
+                shares = frozenset({WHOLE})
+            else:
+                shares = frozenset(
+                    Share(*row)
+                    for row in self.db.execute(
+                        "SELECT share_index, share_count FROM campaign_shares WHERE campaign_id=?",
+                        (campaign_id,),
+                    )
+                )
+            found.append(Campaign(plan_hash, seed, jsonsafe.loads(plan), shares))
+        return found
 
     def finished_keys(self) -> set[str]:
         return {r[0] for r in self.db.execute("SELECT run_key FROM runs")}
@@ -365,50 +426,31 @@ class ResultStore:
     def save(self, run_key: str, campaign_id: int, record: RunRecord) -> bool:
         """Write one finished run and its log in one transaction (all or nothing), and drop
         its claim. Returns False when the run was already stored (by another coordinator)."""
-        doc = record.to_dict()
-        log = doc.pop("log")
         with self._write() as db:
             db.execute("DELETE FROM claims WHERE run_key=?", (run_key,))
-            cur = db.execute(
-                "INSERT OR IGNORE INTO runs(run_key, campaign_id, evolver, config_hash, task,"
-                " run_index, status, evaluations, generations, record)"
-                " VALUES (?,?,?,?,?,?,?,?,?,?)",
-                (
-                    run_key,
-                    campaign_id,
-                    record.evolver,
-                    record.config_hash,
-                    record.task,
-                    record.run_index,
-                    record.status,
-                    record.evaluations,
-                    record.generations,
-                    jsonsafe.dumps(doc, sort_keys=True),
-                ),
+            return _insert_run(db, run_key, campaign_id, record)
+
+    def merge_in(self, campaign: Campaign, runs: Iterable[StoredRun]) -> int:
+        """Add ``campaign`` (created or, when its plan is stored, given its ``shares`` too)
+        and every run of ``runs`` whose key is not stored yet, with its log and the time it
+        was stored, in one transaction: all or nothing. A run already stored with other
+        content (:func:`~.runs.content_digest`) is a :class:`RunConflict` and nothing is
+        written. Returns the number of runs added."""
+        added = 0
+        with self._write() as db:
+            campaign_id = _add_campaign(
+                db, campaign.seed, campaign.plan, campaign.plan_hash, campaign.shares
             )
-            if cur.rowcount == 0:
-                return False
-            db.executemany(
-                "INSERT INTO generations(run_id, generation, evaluations, best_fitness,"
-                " mean_fitness, best_hidden, best_connections, stats, champion_test, non_finite_fitness)"
-                " VALUES (?,?,?,?,?,?,?,?,?,?)",
-                [
-                    (
-                        cur.lastrowid,
-                        g["generation"],
-                        g["evaluations"],
-                        g["best_fitness"],
-                        g["mean_fitness"],
-                        g["best_hidden"],
-                        g["best_connections"],
-                        jsonsafe.dumps(g["stats"], sort_keys=True),
-                        jsonsafe.dumps(g["champion_test"], sort_keys=True),
-                        g["non_finite_fitness"],
-                    )
-                    for g in log
-                ],
-            )
-        return True
+            for run in runs:
+                if _insert_run(db, run.key, campaign_id, run.record, run.finished_at):
+                    added += 1
+                    continue
+                run_id, text = db.execute(
+                    "SELECT id, record FROM runs WHERE run_key=?", (run.key,)
+                ).fetchone()
+                if content_digest(self._record(run_id, text)) != content_digest(run.record):
+                    raise RunConflict(run.key, run.source, self.path)
+        return added
 
     def integrity(self) -> str:
         """SQLite's ``PRAGMA integrity_check``: ``"ok"`` for a sound file."""
@@ -416,14 +458,23 @@ class ResultStore:
 
     def records(self, with_log: bool = True) -> Iterator[RunRecord]:
         """Every stored run, in a stable order (evolver, task, run index)."""
+        for run in self.stored_runs(with_log):
+            yield run.record
+
+    def stored_runs(self, with_log: bool = True) -> Iterator[StoredRun]:
+        """Every stored run with its key, in the order of :meth:`records`."""
         rows = self.db.execute(
-            "SELECT id, record FROM runs ORDER BY evolver, config_hash, task, run_index, id"
+            "SELECT id, run_key, record, finished_at FROM runs"
+            " ORDER BY evolver, config_hash, task, run_index, id"
         ).fetchall()
-        for run_id, text in rows:
-            doc = jsonsafe.loads(text)
-            doc["log"] = self._log(run_id) if with_log else []
-            record = RunRecord.from_dict(doc)
-            yield record if self.version >= 4 else _current_names(record)
+        for run_id, key, text, finished_at in rows:
+            yield StoredRun(key, self._record(run_id, text, with_log), finished_at, self.path)
+
+    def _record(self, run_id: int, text: str, with_log: bool = True) -> RunRecord:
+        doc = jsonsafe.loads(text)
+        doc["log"] = self._log(run_id) if with_log else []
+        record = RunRecord.from_dict(doc)
+        return record if self.version >= 4 else _current_names(record)
 
     def _log(self, run_id: int) -> list[dict[str, Any]]:
         champion_test = "champion_test" if self.version >= 2 else "'{}'"
@@ -438,6 +489,84 @@ class ResultStore:
             asdict(GenerationLog(g, e, bf, mf, bh, bc, jsonsafe.loads(st), jsonsafe.loads(ct), nf))
             for g, e, bf, mf, bh, bc, st, ct, nf in rows
         ]
+
+
+def _add_campaign(
+    db: sqlite3.Connection,
+    seed: int,
+    plan: Mapping[str, Any],
+    plan_hash: str,
+    shares: Iterable[Share],
+) -> int:
+    """Inside a write transaction: the id of the campaign of ``plan_hash`` (created when
+    missing), with ``shares`` added to the shares it was run for."""
+    db.execute(
+        "INSERT OR IGNORE INTO campaigns(plan_hash, seed, plan) VALUES (?, ?, ?)",
+        (plan_hash, seed, jsonsafe.dumps(plan, sort_keys=True)),
+    )
+    (campaign_id,) = db.execute(
+        "SELECT id FROM campaigns WHERE plan_hash=?", (plan_hash,)
+    ).fetchone()
+    db.executemany(
+        "INSERT OR IGNORE INTO campaign_shares(campaign_id, share_index, share_count)"
+        " VALUES (?, ?, ?)",
+        [(campaign_id, share.index, share.count) for share in shares],
+    )
+    return campaign_id
+
+
+def _insert_run(
+    db: sqlite3.Connection,
+    run_key: str,
+    campaign_id: int,
+    record: RunRecord,
+    finished_at: str | None = None,
+) -> bool:
+    """Inside a write transaction: store ``record`` and its log under ``run_key`` (stored
+    now, or at ``finished_at``); False, writing nothing, when the key is stored already."""
+    doc = record.to_dict()
+    log = doc.pop("log")
+    cur = db.execute(
+        "INSERT OR IGNORE INTO runs(run_key, campaign_id, evolver, config_hash, task,"
+        " run_index, status, evaluations, generations, record, finished_at)"
+        " VALUES (?,?,?,?,?,?,?,?,?,?, COALESCE(?, datetime('now')))",
+        (
+            run_key,
+            campaign_id,
+            record.evolver,
+            record.config_hash,
+            record.task,
+            record.run_index,
+            record.status,
+            record.evaluations,
+            record.generations,
+            jsonsafe.dumps(doc, sort_keys=True),
+            finished_at,
+        ),
+    )
+    if cur.rowcount == 0:
+        return False
+    db.executemany(
+        "INSERT INTO generations(run_id, generation, evaluations, best_fitness,"
+        " mean_fitness, best_hidden, best_connections, stats, champion_test, non_finite_fitness)"
+        " VALUES (?,?,?,?,?,?,?,?,?,?)",
+        [
+            (
+                cur.lastrowid,
+                g["generation"],
+                g["evaluations"],
+                g["best_fitness"],
+                g["mean_fitness"],
+                g["best_hidden"],
+                g["best_connections"],
+                jsonsafe.dumps(g["stats"], sort_keys=True),
+                jsonsafe.dumps(g["champion_test"], sort_keys=True),
+                g["non_finite_fitness"],
+            )
+            for g in log
+        ],
+    )
+    return True
 
 
 def owner_id() -> str:
@@ -472,4 +601,6 @@ def _reason(exc: sqlite3.DatabaseError, writing: bool = False) -> str:
         return f"cannot open it ({text})"
     if "locked" in text:
         return f"another process holds it locked ({text})"
+    if "malformed" in text:
+        return f"corrupt ({text})"
     return f"cannot write it ({text})" if writing else f"not a neuroyard store ({text})"

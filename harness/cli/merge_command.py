@@ -1,0 +1,32 @@
+"""``neuroyard merge``: the stores of a campaign's shares (batch jobs) into one store
+(:mod:`neuroyard.harness.records.merge`)."""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+from typing import Any
+
+from neuroyard.harness.records.merge import merge
+
+
+def add_parser(sub: Any) -> None:
+    """Register ``merge`` on the command line's subparsers."""
+    p = sub.add_parser(
+        "merge", help="combine the stores of one campaign's shares (batch jobs) into one"
+    )
+    p.add_argument("out", type=Path, metavar="OUT", help="store to merge into (created if missing)")
+    p.add_argument("stores", type=Path, nargs="+", metavar="STORE", help="stores to merge")
+
+
+def command(args: argparse.Namespace) -> None:
+    """Merge, then say what the output store holds."""
+    result = merge(args.out, args.stores)
+    shares = ", ".join(str(s) for s in result.shares)
+    held = f"{result.held} runs"
+    if result.planned is not None:
+        held = f"{result.held} of the plan's {result.planned} runs"
+    print(
+        f"{args.out}: {result.added} runs added, {result.present} already there; it holds "
+        f"{held} (plan {result.plan_hash}, shares {shares})"
+    )
