@@ -114,6 +114,8 @@ CHILD = textwrap.dedent(
         elif kind == "stop":
             if KIND == "lingers":
                 time.sleep(60)
+            if KIND == "chatty_stop":
+                say({"type": "bye"})
             sys.exit(5 if KIND == "stop_status" else 0)
     """
 ).replace("__NET__", repr(NET))
@@ -148,10 +150,13 @@ FAULTS = {
     + repr('{"type": "ready", "version": 2, "settings": {"kind": "version"}}'),
     "lingers": "stop(): the evolver process did not exit within 1 s (reply_timeout) after stop",
     "stop_status": "stop(): the evolver process exited with status 5 after stop",
+    "chatty_stop": "stop(): the evolver process wrote to stdout after stop (no reply was due): "
+    + repr('{"type": "bye"}\n'),
 }
 # evaluations made before the fault: two generations of five networks, the third one's
 # too for a fault after its tell, none before the first ask, all at stop
-EVALUATIONS = {"version": 0, "nan": 15, "out_of_turn": 15, "lingers": BUDGET, "stop_status": BUDGET}
+EVALUATIONS = {"version": 0, "nan": 15, "out_of_turn": 15}
+EVALUATIONS.update(dict.fromkeys(("lingers", "stop_status", "chatty_stop"), BUDGET))
 
 
 @pytest.fixture(scope="module")

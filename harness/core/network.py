@@ -326,10 +326,16 @@ def from_dict(doc: Mapping[str, Any], where: str = "network") -> Network:
     return network
 
 
-def parse(doc: Mapping[str, Any], where: str = "network") -> Network:
+def parse(
+    doc: Mapping[str, Any], where: str = "network", shared: dict[tuple, Node] | None = None
+) -> Network:
     """The JSON form read into a :class:`Network`, checking its structure only (keys, the
     format name and version); the rules of the format are left to :func:`validate` or to a
-    whole batch's check (:func:`~.batch.compile_batch`). Errors name the offending entry."""
+    whole batch's check (:func:`~.batch.compile_batch`). Errors name the offending entry.
+
+    ``shared``: a dict, kept by the caller across the networks of a batch, in which nodes
+    with the same fields (values and types) are made once and shared (nodes are immutable;
+    a generation of one topology repeats its nodes in every network)."""
     if not isinstance(doc, Mapping):
         raise NetworkError(f"{where}: expected a JSON object, got {type(doc).__name__}")
     if not doc.keys() <= _DOC_KEYS:
@@ -343,20 +349,9 @@ def parse(doc: Mapping[str, Any], where: str = "network") -> Network:
     links = _list(doc, "connections", where)
     # one pass in comprehensions (a generation of networks is read at a time); an item
     # that does not fit is found and explained after it
+    made = {} if shared is None else shared
     try:
-        nodes = tuple(
-            [
-                Node(
-                    n["id"],
-                    n["kind"],
-                    n.get("activation", "identity"),
-                    n.get("bias", 0.0),
-                    n.get("gain", 1.0),
-                )
-                for n in items
-                if n.keys() <= _NODE_KEYS
-            ]
-        )
+        nodes = tuple(_nodes(items, made))
         connections = tuple(
             [
                 Connection(c["source"], c["target"], c["weight"], c.get("enabled", True))
@@ -369,6 +364,28 @@ def parse(doc: Mapping[str, Any], where: str = "network") -> Network:
     if len(nodes) != len(items) or len(connections) != len(links):
         _explain_item(items, links, where)
     return Network(nodes, connections, doc.get("mode", "feedforward"))
+
+
+def _nodes(items: list[Any], made: dict[tuple, Node]) -> list[Node]:
+    """The nodes of the entries ``items`` up to the first that is not an object with known
+    keys only; a node with the same fields as one in ``made``, of the same types (``1`` is
+    not ``1.0`` nor ``True``), is taken from there (one loop, no call per node: a generation
+    of networks is read at a time)."""
+    nodes = []
+    for item in items:
+        if not item.keys() <= _NODE_KEYS:
+            break
+        nid, bias, gain = item["id"], item.get("bias", 0.0), item.get("gain", 1.0)
+        kind, activation = item["kind"], item.get("activation", "identity")
+        key = (nid, kind, activation, bias, gain, type(nid), type(bias), type(gain))
+        try:
+            node = made.get(key)
+        except TypeError:  # a value that cannot be a key (a list): the checks name it
+            node = Node(nid, kind, activation, bias, gain)
+        if node is None:
+            node = made[key] = Node(nid, kind, activation, bias, gain)
+        nodes.append(node)
+    return nodes
 
 
 def _explain_item(items: list[Any], links: list[Any], where: str) -> NoReturn:

@@ -8,8 +8,8 @@ the entry-point group ``neuroyard.evolvers`` that returns a :class:`ProcessEvolv
 The child is started by ``start`` and ends after ``stop``. It breaks the contract, and its
 run fails with the reason, when it replies with a line that is not JSON, a message of an
 unknown type, the wrong reply, a message that fails the schema or an invalid network;
-when it reports an error; when it exits or closes its output; when it sends no reply
-within ``reply_timeout`` seconds; when it writes to stdout while no reply is due (found
+when it reports an error; when it exits or closes its output; when it does not take a
+request or sends no reply within ``reply_timeout`` seconds; when it writes to stdout while no reply is due (found
 before the next request and after ``stop``); and when it does not exit with status 0
 within ``reply_timeout`` seconds of ``stop``. The child is then killed and reaped, and the
 reason ends with the last lines it wrote to stderr. Options other than ``reply_timeout``
@@ -19,7 +19,6 @@ returns its effective settings, which :meth:`ProcessEvolver.settings` gives the 
 
 from __future__ import annotations
 
-import functools
 import math
 import os
 import shlex
@@ -30,6 +29,7 @@ from typing import Any, NoReturn
 
 from neuroyard.harness.core import jsonsafe, protocol
 from neuroyard.harness.core.child_process import (
+    EXIT_WAIT,
     MAX_LINE_BYTES,
     ChildGone,
     ChildStalled,
@@ -42,8 +42,8 @@ from neuroyard.harness.core.evolver import Evaluation, Outcome, Problem
 from neuroyard.harness.core.network import Network
 
 PREFIX = "process:"
-# s to wait for one reply (ours: far above the examples' generation of 1 ms, well under the
-# harness's 60 s limit per evolver call, so a stall is named as such)
+# s to wait for one reply (ours: far above a generation of the examples, a few ms, and well
+# under the harness's 60 s limit per evolver call, so that a stall is named as such)
 DEFAULT_REPLY_TIMEOUT = 10.0
 
 
@@ -124,13 +124,7 @@ class ProcessEvolver:
         child = self.child
         if child is None or child.ended:
             return
-        self._quiet_before("stop")
-        try:
-            child.send(protocol.stop_message(outcome), self.reply_timeout)
-        except ChildGone:
-            self._fail(f"the evolver process {exit_words(child.end(1.0))} before stop")
-        except ChildStalled:
-            self._fail(f"the evolver process did not read stop within {self.reply_timeout:g} s")
+        self._send("stop", protocol.stop_message(outcome))
         status = child.finish(self.reply_timeout)
         stray = child.unread()
         if status is None:
@@ -152,19 +146,12 @@ class ProcessEvolver:
     def _exchange(self, request: str, line: str) -> dict[str, Any]:
         """Send ``line`` (a ``request``) and return the child's checked reply; any fault
         ends the child and raises :class:`ProcessEvolverError`."""
-        child = self.child
-        assert child is not None and not child.ended, "the evolver process is not running"
-        self._quiet_before(request)
+        self._send(request, line)
+        assert self.child is not None
         try:
-            child.send(line, self.reply_timeout)
-            reply = child.receive(self.reply_timeout)
+            reply = self.child.receive(self.reply_timeout)
         except ChildGone as gone:
-            status = child.end(1.0)
-            left = f" (its last output, without a line end: {protocol.quote(gone.partial)})"
-            self._fail(
-                f"the evolver process {exit_words(status)} before replying to {request}"
-                + (left if gone.partial else "")
-            )
+            self._gone(request, gone.partial)
         except ChildStalled:
             self._fail(
                 f"the evolver process sent no reply to {request} within "
@@ -179,6 +166,31 @@ class ProcessEvolver:
             return protocol.read_reply(reply, request)
         except ProcessEvolverError as exc:
             self._fail(str(exc))
+
+    def _send(self, request: str, line: str) -> None:
+        """Write ``line`` (a ``request``) once the child is quiet; any fault ends it."""
+        child = self.child
+        assert child is not None and not child.ended, "the evolver process is not running"
+        self._quiet_before(request)
+        try:
+            child.send(line, self.reply_timeout)
+        except ChildGone:
+            self._gone(request, b"")
+        except ChildStalled:
+            self._fail(
+                f"the evolver process did not read {request} within {self.reply_timeout:g} s "
+                "(reply_timeout)"
+            )
+
+    def _gone(self, request: str, partial: bytes) -> NoReturn:
+        """The child closed its pipes: fail with how it ended and what it left unfinished."""
+        assert self.child is not None
+        status = self.child.end(EXIT_WAIT)
+        when = f"replying to {request}" if request in protocol.REPLY_TO else request
+        left = f" (its last output, without a line end: {protocol.quote(partial)})"
+        self._fail(
+            f"the evolver process {exit_words(status)} before {when}" + (left if partial else "")
+        )
 
     def _quiet_before(self, request: str) -> None:
         """Fail when the child wrote to stdout since its last reply (nothing was due)."""
@@ -219,4 +231,12 @@ def command_factory(command: str) -> Callable[..., ProcessEvolver]:
         ) from None
     if not argv:
         raise EvolverError(f"evolver {PREFIX!r} needs a command after the colon")
-    return functools.partial(ProcessEvolver, argv)
+
+    def factory(**options: Any) -> ProcessEvolver:
+        return ProcessEvolver(argv, **options)
+
+    factory.__doc__ = (
+        f"The program {shlex.join(argv)!r} run as a child process, speaking the JSON-lines "
+        "evolver protocol; its options are its own, and reply_timeout the harness's."
+    )
+    return factory
