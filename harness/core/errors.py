@@ -25,3 +25,8 @@ class SettingError(NeuroyardError, ValueError):
     """A task setting or an evolver option that is unknown, of the wrong type or out of its
     range (see :mod:`.options`); a ``ValueError`` too, so an evolver's ``__init__`` may let
     it through as the contract's configuration error."""
+
+
+class ProcessEvolverError(EvolverError):
+    """An evolver running as its own process broke the JSON-lines protocol, exited, stalled
+    or reported an error (:mod:`.process_evolver`); the message is the reason its run fails."""

@@ -1,8 +1,11 @@
-"""How evolvers are found and built: by entry-point name or ``module:attr`` path.
+"""How evolvers are found and built: by entry-point name, ``module:attr`` path or command.
 
 An evolver is made by calling a *factory* (usually the class) with its configuration as
 keyword arguments. Factories are found by name in the entry-point group
-``neuroyard.evolvers`` or by a ``module:attr`` path.
+``neuroyard.evolvers``, by a ``module:attr`` path, or as ``process:COMMAND``: an evolver
+in any language, COMMAND run as a child process that speaks the JSON-lines protocol
+(:mod:`.process_evolver`; the name, command included, is part of every run's key and
+seed). ``process:`` is taken before a module of that name.
 """
 
 from __future__ import annotations
@@ -21,6 +24,8 @@ from typing import Any
 from neuroyard.harness.core.errors import EvolverError, SettingError
 from neuroyard.harness.core.evolver import Evolver
 from neuroyard.harness.core.options import OptionTable
+from neuroyard.harness.core.process_evolver import PREFIX as PROCESS_PREFIX
+from neuroyard.harness.core.process_evolver import command_factory
 
 ENTRY_POINT_GROUP = "neuroyard.evolvers"
 
@@ -100,12 +105,16 @@ def available() -> dict[str, str]:
 
 
 def load_factory(name: str) -> EvolverFactory:
-    """Resolve an entry-point name or a ``module:attr`` path to an evolver factory."""
+    """Resolve an entry-point name, a ``module:attr`` path or ``process:COMMAND`` to an
+    evolver factory."""
+    if name.startswith(PROCESS_PREFIX):
+        return command_factory(name.removeprefix(PROCESS_PREFIX))
     target = available().get(name)
     if target is None and ":" not in name:
         known = ", ".join(sorted(available())) or "none installed"
         raise EvolverError(
-            f"unknown evolver {name!r} (installed: {known}; or give a module:attr path)"
+            f"unknown evolver {name!r} (installed: {known}; or give a module:attr path or "
+            "process:COMMAND)"
         )
     module_name, _, attr = (target or name).partition(":")
     try:

@@ -314,47 +314,96 @@ def to_dict(network: Network) -> dict[str, Any]:
     }
 
 
+_DOC_KEYS = frozenset({"format", "version", "mode", "nodes", "connections"})
+_NODE_KEYS = frozenset({"id", "kind", "activation", "bias", "gain"})
+_CONNECTION_KEYS = frozenset({"source", "target", "weight", "enabled"})
+
+
 def from_dict(doc: Mapping[str, Any], where: str = "network") -> Network:
     """Parse and validate the JSON form; errors name the offending entry."""
+    network = parse(doc, where)
+    validate(network, where=where)
+    return network
+
+
+def parse(
+    doc: Mapping[str, Any], where: str = "network", shared: dict[tuple, Node] | None = None
+) -> Network:
+    """The JSON form read into a :class:`Network`, checking its structure only (keys, the
+    format name and version); the rules of the format are left to :func:`validate` or to a
+    whole batch's check (:func:`~.batch.compile_batch`). Errors name the offending entry.
+
+    ``shared``: a dict, kept by the caller across the networks of a batch, in which nodes
+    with the same fields (values and types) are made once and shared (nodes are immutable;
+    a generation of one topology repeats its nodes in every network)."""
     if not isinstance(doc, Mapping):
         raise NetworkError(f"{where}: expected a JSON object, got {type(doc).__name__}")
-    unknown = set(doc) - {"format", "version", "mode", "nodes", "connections"}
-    if unknown:
-        raise NetworkError(f"{where}: unknown keys {sorted(unknown)}")
+    if not doc.keys() <= _DOC_KEYS:
+        raise NetworkError(f"{where}: unknown keys {sorted(set(doc) - _DOC_KEYS)}")
     if doc.get("format", FORMAT_NAME) != FORMAT_NAME:
         raise NetworkError(f"{where}: format is {doc.get('format')!r}, expected {FORMAT_NAME!r}")
     version = doc.get("version", FORMAT_VERSION)
     if type(version) is not int or version != FORMAT_VERSION:
         raise NetworkError(f"{where}: format version {doc.get('version')!r} is not supported")
-    nodes: list[Node] = []
-    for k, item in enumerate(_list(doc, "nodes", where)):
+    items = _list(doc, "nodes", where)
+    links = _list(doc, "connections", where)
+    # one pass in comprehensions (a generation of networks is read at a time); an item
+    # that does not fit is found and explained after it
+    made = {} if shared is None else shared
+    try:
+        nodes = tuple(_nodes(items, made))
+        connections = tuple(
+            [
+                Connection(c["source"], c["target"], c["weight"], c.get("enabled", True))
+                for c in links
+                if c.keys() <= _CONNECTION_KEYS
+            ]
+        )
+    except (AttributeError, KeyError, TypeError):
+        nodes = connections = ()
+    if len(nodes) != len(items) or len(connections) != len(links):
+        _explain_item(items, links, where)
+    return Network(nodes, connections, doc.get("mode", "feedforward"))
+
+
+def _nodes(items: list[Any], made: dict[tuple, Node]) -> list[Node]:
+    """The nodes of the entries ``items`` up to the first that is not an object with known
+    keys only; a node with the same fields as one in ``made``, of the same types (``1`` is
+    not ``1.0`` nor ``True``), is taken from there (one loop, no call per node: a generation
+    of networks is read at a time)."""
+    nodes = []
+    for item in items:
+        if not item.keys() <= _NODE_KEYS:
+            break
+        nid, bias, gain = item["id"], item.get("bias", 0.0), item.get("gain", 1.0)
+        kind, activation = item["kind"], item.get("activation", "identity")
+        key = (nid, kind, activation, bias, gain, type(nid), type(bias), type(gain))
+        try:
+            node = made.get(key)
+        except TypeError:  # a value that cannot be a key (a list): the checks name it
+            node = Node(nid, kind, activation, bias, gain)
+        if node is None:
+            node = made[key] = Node(nid, kind, activation, bias, gain)
+        nodes.append(node)
+    return nodes
+
+
+def _explain_item(items: list[Any], links: list[Any], where: str) -> NoReturn:
+    """Raise the error of the first node or connection entry that :func:`parse` could not
+    read: not an object, a required key missing, or an unknown key."""
+    for k, item in enumerate(items):
         if not isinstance(item, Mapping) or "id" not in item or "kind" not in item:
             raise NetworkError(f"{where}: nodes[{k}] needs at least 'id' and 'kind'")
-        unknown = set(item) - {"id", "kind", "activation", "bias", "gain"}
-        if unknown:
-            raise NetworkError(f"{where}: nodes[{k}] has unknown keys {sorted(unknown)}")
-        nodes.append(
-            Node(
-                id=item["id"],
-                kind=item["kind"],
-                activation=item.get("activation", "identity"),
-                bias=item.get("bias", 0.0),
-                gain=item.get("gain", 1.0),
-            )
-        )
-    connections: list[Connection] = []
-    for k, item in enumerate(_list(doc, "connections", where)):
-        if not isinstance(item, Mapping) or not {"source", "target", "weight"} <= set(item):
+        if not item.keys() <= _NODE_KEYS:
+            unknown = sorted(set(item) - _NODE_KEYS)
+            raise NetworkError(f"{where}: nodes[{k}] has unknown keys {unknown}")
+    for k, item in enumerate(links):
+        if not isinstance(item, Mapping) or not {"source", "target", "weight"} <= item.keys():
             raise NetworkError(f"{where}: connections[{k}] needs 'source', 'target' and 'weight'")
-        unknown = set(item) - {"source", "target", "weight", "enabled"}
-        if unknown:
-            raise NetworkError(f"{where}: connections[{k}] has unknown keys {sorted(unknown)}")
-        connections.append(
-            Connection(item["source"], item["target"], item["weight"], item.get("enabled", True))
-        )
-    network = Network(tuple(nodes), tuple(connections), doc.get("mode", "feedforward"))
-    validate(network, where=where)
-    return network
+        if not item.keys() <= _CONNECTION_KEYS:
+            unknown = sorted(set(item) - _CONNECTION_KEYS)
+            raise NetworkError(f"{where}: connections[{k}] has unknown keys {unknown}")
+    raise NetworkError(f"{where}: an entry of 'nodes' or 'connections' cannot be read")
 
 
 def _list(doc: Mapping[str, Any], key: str, where: str) -> list[Any]:

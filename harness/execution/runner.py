@@ -41,7 +41,7 @@ from typing import Any, Protocol
 from neuroyard.harness.core import jsonsafe
 from neuroyard.harness.core.batch import CompiledBatch, compile_batch
 from neuroyard.harness.core.compiled import fingerprint
-from neuroyard.harness.core.errors import NetworkError
+from neuroyard.harness.core.errors import NetworkError, ProcessEvolverError
 from neuroyard.harness.core.evolver import MAX_BATCH, Evaluation, Outcome
 from neuroyard.harness.core.network import Network, to_dict
 from neuroyard.harness.execution import calibration, provenance
@@ -107,6 +107,8 @@ class _Clock:
             return fn(*args)
         except RunFault:
             raise
+        except ProcessEvolverError as exc:  # an evolver process's fault, already in words
+            raise RunFault(f"{call_label(what, generation)}: {exc}") from None
         except MemoryError:
             raise RunFault(
                 f"{call_label(what, generation)} ran out of memory{self.memory_note}"

@@ -34,6 +34,7 @@ from dataclasses import dataclass
 from multiprocessing.connection import wait
 from typing import Any
 
+from neuroyard.harness.core.child_process import exit_words
 from neuroyard.harness.core.evolver import MAX_BATCH
 from neuroyard.harness.execution import worker
 from neuroyard.harness.execution.runner import call_label, new_record, run_one
@@ -78,16 +79,6 @@ def failed_record(spec: RunSpec, reason: str, status: Any, started: float) -> Ru
     wall = time.monotonic() - started
     record.timing = {"wall": wall, "evolver": 0.0, "kernel_load": 0.0, "harness": wall}
     return record
-
-
-def _exit_reason(exitcode: int | None) -> str:
-    if exitcode is not None and exitcode < 0:
-        try:
-            name = signal.Signals(-exitcode).name
-        except ValueError:
-            name = "an unknown signal"
-        return f"was killed by signal {-exitcode} ({name})"
-    return f"exited with status {exitcode}"
 
 
 class _Worker:
@@ -206,7 +197,7 @@ class Supervisor:
         assert spec is not None
         w.process.join(timeout=5)
         code = int(w.status[worker.CALL])
-        how = _exit_reason(w.process.exitcode)
+        how = exit_words(w.process.exitcode)
         w.kill()
         w.spec = None
         if code:
