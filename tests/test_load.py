@@ -48,6 +48,7 @@ def test_a_thousand_runs_are_each_stored_once_with_the_coordinator_holding_none(
             counts.append(_live_records())
 
     path = tmp_path / "load.sqlite"
+    before = _live_records()  # records other tests keep alive
     with ResultStore(path) as store:
         outcome = execute(PLAN, store, executor, progress=False, on_record=count)
         assert store.integrity() == "ok"
@@ -61,6 +62,6 @@ def test_a_thousand_runs_are_each_stored_once_with_the_coordinator_holding_none(
         key for (key,) in sqlite3.connect(path).execute("SELECT run_key FROM runs")
     }
     assert len(counts) == RUNS // SAMPLE_EVERY
-    # records in flight (at most the capacity of 2) and the one being handed out, never
-    # the hundreds already stored
-    assert max(counts) <= 4, counts
+    # records in flight (at most the capacity of 2, or 4 runs handed to the cluster) and
+    # the one being handed out, never the hundreds already stored
+    assert max(counts) - before <= 5, (before, counts)
