@@ -62,6 +62,7 @@ METRICS = (
     "mean_connections",
     "sd_connections",
     "mean_generalization",
+    "mean_validation_return",
     "population",
 )
 

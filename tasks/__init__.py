@@ -1,6 +1,7 @@
 """The neuroyard task suite. Importing this package registers the built-in tasks."""
 
 from . import (
+    gym_task,  # noqa: F401  (registers gym-env-v1, the form gym:ENV_ID)
     logic,  # noqa: F401  (registers xor-v2, parity-v2)
     maze,  # noqa: F401  (registers maze-open-v1, maze-medium-v1, maze-hard-v2)
     pole,  # noqa: F401

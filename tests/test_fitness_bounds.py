@@ -3,8 +3,10 @@
 The bounds are the tasks' own statements: (P - sum |clip(o, 0, 1) - t|)^2 lies in [0, P^2]
 for the logic tasks (Stanley & Miikkulainen 2002, sec. 4.2, assume outputs in [0, 1]);
 steps balanced lie in [0, episode_steps]; the damped fitness of Gruau, Whitley & Pyeatt
-1996 is at least 0. A non-finite output may make a task's raw fitness NaN; the harness then
-records the task's worst fitness (``bound_fitness``), as ``neuroyard evaluate`` shows.
+1996 is at least 0; a Gymnasium environment's mean return lies in [min_return,
+max_return] (CartPole-v1: +1 a step for at most 500 steps). A non-finite output may make a
+task's raw fitness NaN; the harness then records the task's worst fitness
+(``bound_fitness``), as ``neuroyard evaluate`` shows.
 """
 
 from __future__ import annotations
@@ -58,8 +60,12 @@ def networks(draw, inputs: int, outputs: int) -> Network:
     return Network(tuple(nodes), tuple(conns), mode)
 
 
-# the settings a task that needs settings is tested with (a shipped maze as a user's file)
-NEEDED = {"maze-file-v1": {"file": str(shipped_maze("medium"))}}
+# the settings a task that needs settings is tested with (a shipped maze as a user's file,
+# gymnasium's CartPole as the Gymnasium environment)
+NEEDED = {
+    "maze-file-v1": {"file": str(shipped_maze("medium"))},
+    "gym-env-v1": {"env": "CartPole-v1"},
+}
 
 
 @pytest.mark.parametrize("task_id", tasks.task_ids())
