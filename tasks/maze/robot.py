@@ -107,6 +107,22 @@ def _unit(o: float) -> float:
     return min(1.0, max(0.0, o))
 
 
+@numba.njit(inline="always", cache=True)
+def move(
+    walls: np.ndarray, x: float, y: float, heading: float, turn: float, speed: float
+) -> tuple[float, float, float]:
+    """The robot's pose (x, y, heading in [0, 2 pi)) after one step from (x, y, heading)
+    with the network's outputs ``turn`` and ``speed`` (each clipped to [0, 1], NaN as 0.5):
+    turn first, then the move along the new heading unless it is blocked (step 3 above)."""
+    heading += (_unit(turn) - 0.5) * 2.0 * MAX_TURN
+    heading %= 2.0 * math.pi
+    distance = (_unit(speed) - 0.5) * 2.0 * MAX_SPEED
+    nx, ny = x + distance * math.cos(heading), y + distance * math.sin(heading)
+    if blocked(walls, nx, ny):
+        return x, y, heading
+    return nx, ny, heading
+
+
 @numba.njit(cache=True)
 def run_episode(
     net: CompiledNetwork,
@@ -130,12 +146,7 @@ def run_episode(
     for k in range(steps):
         sense(walls, goal, x, y, heading, inputs)
         step(net, values, scratch, inputs, outputs)
-        heading += (_unit(outputs[0]) - 0.5) * 2.0 * MAX_TURN
-        heading %= 2.0 * math.pi
-        speed = (_unit(outputs[1]) - 0.5) * 2.0 * MAX_SPEED
-        nx, ny = x + speed * math.cos(heading), y + speed * math.sin(heading)
-        if not blocked(walls, nx, ny):
-            x, y = nx, ny
+        x, y, heading = move(walls, x, y, heading, outputs[0], outputs[1])
         if k + 1 < keep:
             record[k + 1, 0], record[k + 1, 1] = x, y
     return x, y

@@ -90,10 +90,13 @@ class MazeTask(Task):
         """Straight-line distance from (x, y) to the goal, in units of length."""
         return math.hypot(x - self.goal[0], y - self.goal[1])
 
+    def fitness_at(self, x: float, y: float) -> float:
+        """The fitness of an episode that ends at (x, y): the arena's diagonal minus the
+        distance to the goal, at least 0."""
+        return max(0.0, self.maze.diagonal - self.goal_distance(x, y))
+
     def _evaluation(self, x: float, y: float) -> Evaluation:
-        distance = self.goal_distance(x, y)
-        fitness = max(0.0, self.maze.diagonal - distance)
-        return Evaluation(fitness, behaviour=(x, y))
+        return Evaluation(self.fitness_at(x, y), behaviour=(x, y))
 
     def trajectory(self, net: CompiledNetwork) -> np.ndarray:
         """Positions (steps + 1, 2) of one episode: the start, then after each step."""

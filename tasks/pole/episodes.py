@@ -1,9 +1,12 @@
 """Balancing episodes: dynamics and network together in one numba call.
 
 One control step: the network reads the observed state variables (each divided by its
-scale), steps once, its first output is mapped to a force, the force is held for
-``substeps`` integration steps, then the failure limits are checked. The count of
-control steps completed inside the limits is the number of steps balanced.
+scale: :func:`observe`), steps once, its first output is mapped to a force, the force is
+held for ``substeps`` integration steps, then the failure limits are checked
+(:func:`control_step`). The count of control steps completed inside the limits is the
+number of steps balanced. :func:`balance` runs a whole episode in one call; the
+Gymnasium environments (``neuroyard.tasks.gym_envs``) call the same functions from Python
+one control step at a time.
 
 Failure: ``|x| > track_limit`` or any ``|theta_i| > failure_angle`` (a NaN state also
 fails). For the damped fitness the kernel also returns the sum, over the last
@@ -60,6 +63,60 @@ def failed(rules: EpisodeRules, state: np.ndarray) -> bool:
     return False
 
 
+@numba.njit(inline="always", **KERNEL)
+def observe(rules: EpisodeRules, state: np.ndarray, inputs: np.ndarray) -> None:
+    """Write the network's inputs at ``state`` into ``inputs``: each observed state
+    variable divided by its scale, in input order."""
+    for j in range(rules.obs_index.shape[0]):
+        inputs[j] = state[rules.obs_index[j]] / rules.obs_scale[j]
+
+
+@numba.njit(inline="always", **KERNEL)
+def applied_force(rules: EpisodeRules, output: float) -> float:
+    """The force (N) the network's first ``output`` gives under the rules' force mapping;
+    finite for every output (a NaN compares false: -max_force)."""
+    if rules.force_mapping == 1:
+        return rules.max_force if output > 0.5 else -rules.max_force
+    return rules.max_force * min(1.0, max(-1.0, 2.0 * output - 1.0))
+
+
+@numba.njit(**KERNEL)
+def control_step(
+    c: np.ndarray,
+    tau: float,
+    euler: bool,
+    rules: EpisodeRules,
+    state: np.ndarray,
+    output: float,
+    ws: np.ndarray,
+) -> bool:
+    """One control step after the network has stepped: the force of ``output``
+    (:func:`applied_force`) held for ``rules.substeps`` integration steps of ``tau``
+    seconds (``state`` advanced in place); returns whether the episode failed
+    (:func:`failed`). ``c`` from :func:`~.physics.pack_constants`, ``ws`` from
+    :func:`~.physics.new_workspace`. :func:`balance` makes the same calls in its loop
+    (written out there: a call of this function in the loop measured 10-15% slower)."""
+    force = applied_force(rules, output)
+    for _ in range(rules.substeps):
+        integration_step(c, tau, euler, state, force, ws)
+    return failed(rules, state)
+
+
+@numba.njit(inline="always", **KERNEL)
+def jiggle_term(state: np.ndarray) -> float:
+    """One balanced step's term of the jiggle sum: ``|x| + |x_dot| + |theta_1| +
+    |theta_dot_1|`` in raw units."""
+    return abs(state[0]) + abs(state[1]) + abs(state[2]) + abs(state[3])
+
+
+@numba.njit(inline="always", **KERNEL)
+def jiggle_sum(window: np.ndarray, steps: int) -> float:
+    """The jiggle sum after ``steps`` balanced steps whose terms (:func:`jiggle_term`) went
+    into the ring buffer ``window`` (slot ``step % JIGGLE_WINDOW``): the sum of the last
+    ``JIGGLE_WINDOW`` terms, or 0 when fewer steps were balanced."""
+    return window.sum() if steps >= JIGGLE_WINDOW else 0.0
+
+
 @numba.njit(**KERNEL)
 def balance(
     net: CompiledNetwork,
@@ -77,8 +134,7 @@ def balance(
     """
     values, scratch = new_state(net)
     state = start.copy()
-    n_obs = rules.obs_index.shape[0]
-    inputs = np.empty(n_obs, dtype=np.float64)
+    inputs = np.empty(rules.obs_index.shape[0], dtype=np.float64)
     outputs = np.zeros(net.out_idx.shape[0], dtype=np.float64)
     window = np.zeros(JIGGLE_WINDOW, dtype=np.float64)
     keep = record.shape[0]
@@ -89,25 +145,18 @@ def balance(
     tau, euler = phys.tau, phys.integrator == 1
     steps = 0
     while steps < max_steps:
-        for j in range(n_obs):
-            inputs[j] = state[rules.obs_index[j]] / rules.obs_scale[j]
+        observe(rules, state, inputs)
         step(net, values, scratch, inputs, outputs)
-        if rules.force_mapping == 1:
-            force = rules.max_force if outputs[0] > 0.5 else -rules.max_force
-        else:
-            force = rules.max_force * min(1.0, max(-1.0, 2.0 * outputs[0] - 1.0))
+        force = applied_force(rules, outputs[0])
         for _ in range(rules.substeps):
             integration_step(c, tau, euler, state, force, ws)
         if failed(rules, state):
             break
-        window[steps % JIGGLE_WINDOW] = (
-            abs(state[0]) + abs(state[1]) + abs(state[2]) + abs(state[3])
-        )
+        window[steps % JIGGLE_WINDOW] = jiggle_term(state)
         steps += 1
         if steps < keep:
             record[steps] = state
-    jiggle = window.sum() if steps >= JIGGLE_WINDOW else 0.0
-    return steps, jiggle
+    return steps, jiggle_sum(window, steps)
 
 
 @numba.njit(**KERNEL)

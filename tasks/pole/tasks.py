@@ -279,15 +279,22 @@ class PoleBalancing(Task):
         cap = self.settings["episode_steps"]
         no_record = np.empty((0, self.start.shape[0]), dtype=np.float64)
         steps, jiggle = balance(net, self.physics, self.rules, self.start, cap, no_record)
+        return Evaluation(self.episode_fitness(int(steps), float(jiggle)))
+
+    def episode_fitness(self, steps: int, jiggle: float) -> float:
+        """The fitness of an episode that balanced ``steps`` steps with jiggle sum
+        ``jiggle`` (as :func:`~.episodes.balance` returns them): the steps balanced, or the
+        damped fitness over ``episode_steps``; NaN when the damped formula has no value."""
         if not self.damped:
-            return Evaluation(float(steps))
+            return float(steps)
         if steps < JIGGLE_WINDOW:
             anti_wiggle = 0.0
         elif jiggle > 0.0:
             anti_wiggle = DAMPED_JIGGLE_NUMERATOR / jiggle
         else:  # a cart and pole exactly at rest for 100 steps: the formula has no value
-            return Evaluation(math.nan)
-        return Evaluation(DAMPED_STEP_WEIGHT * steps / cap + DAMPED_JIGGLE_WEIGHT * anti_wiggle)
+            return math.nan
+        cap = self.settings["episode_steps"]
+        return DAMPED_STEP_WEIGHT * steps / cap + DAMPED_JIGGLE_WEIGHT * anti_wiggle
 
     def success_test(self, net: CompiledNetwork, evaluation: Evaluation) -> SuccessCheck:
         """Balance ``success_steps`` from the standard start (plus generalization for DPNV).
