@@ -121,6 +121,24 @@ def test_report_lists_the_options_given_apart_from_the_evolver_defaults():
     }
 
 
+def test_report_lists_settings_an_evolver_resolved_per_task_for_each_task():
+    # one configuration whose effective settings differ between tasks (a population size
+    # derived from the task's network size): each set is listed with the tasks it was on
+    on_parity = dataclasses.replace(
+        record(1, True, 3000, population=200), task="parity-v2", task_settings={"bits": 3}
+    )
+    rows = report.build([record(0, True, 3000), on_parity])
+    text = renderers.render(rows, "markdown")
+    assert (
+        "- evolver neat [c0ffee] on xor-v2:\n  - the evolver's defaults:\n"
+        "    - population_size = 150\n"
+    ) in text
+    assert (
+        "- evolver neat [c0ffee] on parity-v2:\n  - the evolver's defaults:\n"
+        "    - population_size = 200\n"
+    ) in text
+
+
 def _sample_with(mean: float, sd: float, n: int) -> list[float]:
     """n numbers with exactly the given mean and sample sd (a stand-in for the runs behind a
     published mean +- sd; not data)."""

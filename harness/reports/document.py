@@ -407,7 +407,10 @@ def _settings(
     for r, (_, task) in zip(rows, names, strict=True):
         heading = f"task {task}"
         seen.setdefault(heading, SettingsGroup(heading, (("", _pairs(r.task_settings)),)))
-    for r in rows:
+    # an evolver may resolve settings per task (CMA-ES's population size): one group per
+    # configuration, or one per distinct set of its settings, naming the tasks of each
+    by_configuration: dict[str, dict[tuple, list[str]]] = {}
+    for r, (_, task) in zip(rows, names, strict=True):
         heading = f"evolver {r.evolver} [{r.config_hash[:6]}]"
         given = {k: r.evolver_settings.get(k, v) for k, v in r.evolver_config.items()}
         defaults = {k: v for k, v in r.evolver_settings.items() if k not in given}
@@ -416,7 +419,13 @@ def _settings(
             parts.append(("the evolver's defaults", _pairs(defaults)))
         elif not given:
             parts.append(("the evolver's defaults (it reports no settings)", ()))
-        seen.setdefault(heading, SettingsGroup(heading, tuple(parts)))
+        tasks = by_configuration.setdefault(heading, {}).setdefault(tuple(parts), [])
+        if task not in tasks:
+            tasks.append(task)
+    for heading, variants in by_configuration.items():
+        for parts, tasks in variants.items():
+            named = heading if len(variants) == 1 else f"{heading} on {', '.join(tasks)}"
+            seen[named] = SettingsGroup(named, parts)
     return tuple(seen.values())
 
 
