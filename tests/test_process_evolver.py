@@ -65,6 +65,7 @@ CHILD = textwrap.dedent(
 
     KIND = sys.argv[1]
     NET = __NET__
+    ROW = [c["weight"] for c in NET["connections"]]
     BROKEN = {"nodes": NET["nodes"],
               "connections": NET["connections"] + [{"source": 0, "target": 99, "weight": 1.0}]}
 
@@ -88,10 +89,24 @@ CHILD = textwrap.dedent(
             say({"type": "hello", "networks": [NET]})
         elif kind == "ask" and faulty and KIND == "wrong_reply":
             say({"type": "noted"})
-        elif kind == "ask" and faulty and KIND == "schema":
+        elif kind == "ask" and faulty and KIND == "batch_not_list":
             say({"type": "batch", "networks": {"first": NET}})
         elif kind == "ask" and faulty and KIND == "invalid_network":
             say({"type": "batch", "networks": [NET, BROKEN]})
+        elif kind == "ask" and faulty and KIND == "both_forms":
+            say({"type": "batch", "networks": [NET], "template": NET, "weights": [ROW]})
+        elif kind == "ask" and faulty and KIND == "template_alone":
+            say({"type": "batch", "template": NET})
+        elif kind == "ask" and faulty and KIND == "invalid_template":
+            say({"type": "batch", "template": BROKEN, "weights": [ROW + [1.0]]})
+        elif kind == "ask" and faulty and KIND == "short_row":
+            say({"type": "batch", "template": NET, "weights": [ROW, ROW[:2]]})
+        elif kind == "ask" and faulty and KIND == "bool_weight":
+            say({"type": "batch", "template": NET, "weights": [ROW, ROW, [0.5, True, 0.1]]})
+        elif kind == "ask" and faulty and KIND == "huge_weight":
+            raw('{"type": "batch", "template": %s, "weights": [[1e400, 0, 0]]}' % json.dumps(NET))
+        elif kind == "ask" and KIND == "template":
+            say({"type": "batch", "template": NET, "weights": [ROW] * 5})
         elif kind == "ask" and faulty and KIND == "error":
             say({"type": "error", "reason": "cannot go on"})
         elif kind == "ask" and faulty and KIND == "exits":
@@ -109,6 +124,8 @@ CHILD = textwrap.dedent(
         elif kind == "stats":
             if faulty and KIND == "nan":
                 raw('{"type": "figures", "values": {"mood": NaN}}')
+            elif faulty and KIND == "schema":
+                say({"type": "figures", "values": ["high"]})
             else:
                 say({"type": "figures", "values": {"generation": message["generation"]}})
         elif kind == "stop":
@@ -120,6 +137,7 @@ CHILD = textwrap.dedent(
     """
 ).replace("__NET__", repr(NET))
 BROKEN = {"nodes": NET["nodes"], "connections": [*NET["connections"], BROKEN_LINK]}
+ROW = [c["weight"] for c in NET["connections"]]
 GARBAGE = "garbage " * 50
 # kind -> the failure reason of its run (the harness's wording, harness/core/process_evolver.py)
 FAULTS = {
@@ -134,6 +152,29 @@ FAULTS = {
     + protocol.quote(json.dumps({"type": "hello", "networks": [NET]})),
     "wrong_reply": "ask() in generation 2: the evolver process replied 'noted' to ask, expected "
     "'batch' (field 'type'): " + repr('{"type": "noted"}'),
+    "batch_not_list": "ask() in generation 2: the evolver process's 'batch' reply to ask field "
+    "'networks' must be a non-empty list, got "
+    + protocol.quote(json.dumps({"first": NET}))
+    + ": "
+    + protocol.quote(json.dumps({"type": "batch", "networks": {"first": NET}})),
+    "both_forms": "ask() in generation 2: the evolver process's 'batch' reply to ask holds "
+    "'networks' and 'template' and 'weights' (one form or the other): "
+    + protocol.quote(
+        json.dumps({"type": "batch", "networks": [NET], "template": NET, "weights": [ROW]})
+    ),  # fmt: skip
+    "template_alone": "ask() in generation 2: the evolver process's 'batch' reply to ask holds "
+    "'template' without 'weights': "
+    + protocol.quote(json.dumps({"type": "batch", "template": NET})),
+    "invalid_template": "ask() in generation 2: the evolver process's batch holds an invalid "
+    "network at field 'template': connection 3 (0 -> 99): target node 99 does not exist; "
+    "the network: " + protocol.quote(json.dumps(BROKEN, separators=(",", ":"))),
+    "short_row": "ask() in generation 2: the evolver process's batch holds invalid weights at "
+    "field 'weights.1': must be a list of 3 numbers, one per connection of the template; the "
+    "entry: '[0.5,-0.5]'",
+    "bool_weight": "ask() in generation 2: the evolver process's batch holds invalid weights at "
+    "field 'weights.2': entry 1 is True, not a finite number; the entry: '[0.5,true,0.1]'",
+    "huge_weight": "ask() in generation 2: the evolver process's batch holds invalid weights at "
+    "field 'weights.0': entry 0 is inf, not a finite number; the entry: '[Infinity,0,0]'",
     "invalid_network": "ask() in generation 2: the evolver process's batch holds an invalid "
     "network at field 'networks.1': connection 3 (0 -> 99): target node 99 does not exist; "
     "the network: " + protocol.quote(json.dumps(BROKEN, separators=(",", ":"))),
@@ -155,7 +196,7 @@ FAULTS = {
 }
 # evaluations made before the fault: two generations of five networks, the third one's
 # too for a fault after its tell, none before the first ask, all at stop
-EVALUATIONS = {"version": 0, "nan": 15, "out_of_turn": 15}
+EVALUATIONS = {"version": 0, "nan": 15, "out_of_turn": 15, "schema": 15}
 EVALUATIONS.update(dict.fromkeys(("lingers", "stop_status", "chatty_stop"), BUDGET))
 
 
@@ -197,11 +238,11 @@ def test_the_schema_example_of_a_reason_is_schema_wording(child) -> None:
     record = run(command(child, "schema"), {"reply_timeout": TIMEOUT})
     assert record.status == "failed"
     # jsonschema's own message for the wrong type, at the field that holds it
-    assert record.failure.startswith(
-        "ask() in generation 2: the evolver process's 'batch' reply to ask fails the protocol "
-        "schema at field 'networks': {'first': "
+    assert record.failure == (
+        "stats() in generation 2: the evolver process's 'figures' reply to stats fails the "
+        "protocol schema at field 'values': ['high'] is not of type 'object': "
+        + repr('{"type": "figures", "values": ["high"]}')
     )
-    assert "is not of type 'array': " in record.failure
     assert not running(child)
 
 
@@ -221,6 +262,49 @@ def test_a_healthy_python_child_runs_to_its_budget(child) -> None:
     assert record.evolver_settings == {"kind": "healthy"}
     assert [row.stats for row in record.log[:2]] == [{"generation": 0.0}, {"generation": 1.0}]
     assert not running(child)
+
+
+def test_a_batch_in_the_template_form_is_the_same_networks(child) -> None:
+    """The Python child's five networks sent as a template and weight rows: the same
+    networks, hence the same evaluations and log, as sent whole."""
+    whole = run(command(child, "healthy"), {"reply_timeout": TIMEOUT})
+    template = run(command(child, "template"), {"reply_timeout": TIMEOUT})
+    assert (template.status, template.failure, template.evaluations) == ("unsolved", None, BUDGET)
+    assert template.best_network == whole.best_network
+    assert [row.best_fitness for row in template.log] == [row.best_fitness for row in whole.log]
+
+
+# a batch's own fields, each checked by read_reply and read_networks by hand and by the
+# protocol's schema: the two must agree (protocol.py, _check_batch)
+ENVELOPES = [
+    {"networks": [NET]},
+    {"template": NET, "weights": [ROW, ROW]},
+    {"networks": []},
+    {"networks": NET},
+    {"weights": [ROW]},
+    {"template": NET},
+    {},
+    {"networks": [NET], "weights": [ROW]},
+    {"networks": [NET], "template": NET, "weights": [ROW]},
+    {"template": NET, "weights": []},
+    {"template": NET, "weights": ROW},
+    {"template": NET, "weights": [ROW, [0.1, "0.2", 0.3]]},
+    {"template": NET, "weights": [[True, 0.1, 0.2]]},
+    {"template": [NET], "weights": [ROW]},
+    {"networks": [NET], "colour": "red"},
+]
+
+
+@pytest.mark.parametrize("fields", ENVELOPES, ids=lambda f: json.dumps(f)[:60])
+def test_the_batch_check_agrees_with_the_schema(fields) -> None:
+    message = {"type": "batch", **fields}
+    line = json.dumps(message).encode()
+    try:
+        protocol.read_networks(protocol.read_reply(line, "ask"), 2, 1)
+        accepted = True
+    except ProcessEvolverError:
+        accepted = False
+    assert accepted == protocol.message_validator().is_valid(message)
 
 
 def test_a_fault_ends_the_child_at_once(child) -> None:
@@ -374,8 +458,24 @@ def test_both_examples_solve_xor_beside_the_python_hill_climber(
             assert out[0] < 0.5 and out[1] > 0.5 and out[2] > 0.5 and out[3] < 0.5
     es_node = next(r for r in records if r.evolver == "es-node")
     assert es_node.evolver_settings == {
-        "lambda": 10, "sigma": 1.0, "hidden": 3, "init_range": 2.0, "timing": False,
+        "lambda": 10, "sigma": 1.0, "hidden": 3, "init_range": 2.0, "batch_form": "template",
+        "timing": False,
     }  # fmt: skip
+
+
+@needs_node
+def test_the_node_examples_two_batch_forms_give_the_same_run() -> None:
+    """es.js sends the same networks as a template and weight rows (its default) or whole:
+    the records agree in everything the run did."""
+    template, whole = (
+        run("es-node", {"batch_form": form}, budget=2000) for form in ("template", "networks")
+    )
+    assert template.failure is None and whole.failure is None
+    assert template.evolver_settings["batch_form"] == "template"
+    assert whole.evolver_settings["batch_form"] == "networks"
+    for field in ("status", "evaluations", "generations", "best_fitness", "best_network"):
+        assert getattr(template, field) == getattr(whole, field), field
+    assert [row.best_fitness for row in template.log] == [row.best_fitness for row in whole.log]
 
 
 def traffic(log: Path) -> list[tuple[str, dict]]:

@@ -9,17 +9,20 @@
 // of deviation `sigma`; the first generation holds the parent itself and lambda - 1
 // mutants), and the fittest of them replaces the parent when it is at least as fit. The
 // same algorithm as neuroyard's hill-climber (reference/hill_climber.py).
+// `batch_form` chooses how a batch is sent: "template" (the default: the network once and
+// each mutant's weights) or "networks" (every network whole); the networks are the same.
 "use strict";
 
 const readline = require("node:readline");
 
 const VERSION = 1;
-const DEFAULTS = { lambda: 10, sigma: 1.0, hidden: 3, init_range: 2.0, timing: false };
+const DEFAULTS = { lambda: 10, sigma: 1.0, hidden: 3, init_range: 2.0, batch_form: "template", timing: false };
 const RULES = {
   lambda: (v) => Number.isInteger(v) && v >= 1,
   sigma: (v) => typeof v === "number" && v > 0,
   hidden: (v) => Number.isInteger(v) && v >= 0,
   init_range: (v) => typeof v === "number" && v > 0,
+  batch_form: (v) => v === "template" || v === "networks",
   timing: (v) => typeof v === "boolean",
 };
 const RULE_WORDS = {
@@ -27,6 +30,7 @@ const RULE_WORDS = {
   sigma: "a number > 0",
   hidden: "a whole number >= 0",
   init_range: "a number > 0",
+  batch_form: '"template" (one network and a weight list per member) or "networks" (every network whole)',
   timing: "true or false (true adds compute_ms to the figures)",
 };
 
@@ -96,20 +100,29 @@ class Strategy {
     this.generation = 0;
   }
 
+  // The batch reply's fields: the template form (the network once, with the parent's
+  // weights, and each mutant's weights in the order of its connections) or every network
+  // whole; both describe the same networks.
   ask() {
     this.batch = [];
     for (let k = 0; k < this.o.lambda; k++) {
       const keep = this.generation === 0 && k === 0; // the parent itself first
       this.batch.push(this.parent.map((w) => (keep ? w : w + this.o.sigma * this.rng.gauss())));
     }
-    return this.batch.map((weights) => ({
+    if (this.o.batch_form === "template")
+      return { template: this.network(this.parent), weights: this.batch };
+    return { networks: this.batch.map((weights) => this.network(weights)) };
+  }
+
+  network(weights) {
+    return {
       nodes: this.nodes,
       connections: weights.map((weight, e) => ({
         source: this.pairs[e][0],
         target: this.pairs[e][1],
         weight,
       })),
-    }));
+    };
   }
 
   tell(evaluations) {
@@ -151,9 +164,9 @@ function handle(message) {
     }
     case "ask": {
       const since = process.hrtime.bigint();
-      const networks = strategy.ask();
+      const batch = strategy.ask();
       computeMs = milliseconds(since);
-      return say({ type: "batch", networks });
+      return say({ type: "batch", ...batch });
     }
     case "tell": {
       const since = process.hrtime.bigint();
