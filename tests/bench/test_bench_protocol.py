@@ -74,8 +74,10 @@ def ask_parts(node, task, rounds: int) -> dict[str, float]:
     """Where the ProcessEvolver's ``ask()`` goes (medians, ms), its steps made one by one
     through its child and the protocol functions: the wait for the whole batch line (the
     child's work, its JSON encoding, the pipe), reading the line (strict JSON, the reply's
-    schema) and making the Network objects with the format's check of the batch."""
+    schema) and making the Network objects with the format's check of the batch; and the
+    batch line's size (``ask_line_kb``, kilobytes)."""
     parts: dict[str, list[float]] = {"wait": [], "read_reply": [], "read_networks": []}
+    sizes: list[float] = []
     for _ in range(rounds):
         t0 = time.perf_counter()
         node.child.send(protocol.ask_message(node.asked), node.reply_timeout)
@@ -90,7 +92,9 @@ def ask_parts(node, task, rounds: int) -> dict[str, float]:
         node.stats()
         for key, ms in zip(parts, ((t1 - t0), (t2 - t1), (t3 - t2)), strict=True):
             parts[key].append(ms * 1e3)
-    return {f"ask_{key}_ms": statistics.median(values) for key, values in parts.items()}
+        sizes.append(len(line) / 1e3)
+    medians = {f"ask_{key}_ms": statistics.median(values) for key, values in parts.items()}
+    return {**medians, "ask_line_kb": statistics.median(sizes)}
 
 
 def record(into: dict[str, list[float]], ask, tell, stats, figures) -> None:
