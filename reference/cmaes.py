@@ -24,7 +24,6 @@ worker) would share. The same seed gives the same run.
 
 from __future__ import annotations
 
-import hashlib
 import math
 from collections.abc import Sequence
 from typing import Any
@@ -82,6 +81,13 @@ class CmaEs:
                 source="ours", kind=str,
             ),
             Option(
+                "network_sha256", None,
+                "SHA-256 of the network file, filled in from it: the configuration's hash, "
+                "and so the run key, covers the file's content, and a stored run whose file "
+                "has changed since is refused",
+                source="ours", kind=str, digest_of="network",
+            ),
+            Option(
                 "population_size", None,
                 "samples per generation; none: cma's default 4 + floor(3 ln n) for n weights",
                 source="from memory: Hansen & Ostermeier 2001, and the cma library's default "
@@ -122,7 +128,6 @@ class CmaEs:
         values["hidden_layers"] = _layer_widths(values["hidden_layers"])
         self.values = values
         self.file_network: Network | None = None
-        self.file_sha256: str | None = None
         if values["network"] is not None:
             clash = [name for name in TOPOLOGY_OPTIONS if name in options]
             if clash:
@@ -130,7 +135,7 @@ class CmaEs:
                     f"{OWNER}: option {clash[0]!r} cannot be given with 'network' "
                     "(the network file fixes the topology)"
                 )
-            self.file_network, self.file_sha256 = _read_network(values["network"])
+            self.file_network = _read_network(values["network"])
             if from_network(self.file_network).n_weights == 0:
                 raise SettingError(
                     f"{OWNER}: option 'network': {values['network']} has no enabled "
@@ -182,15 +187,12 @@ class CmaEs:
     def settings(self) -> dict[str, object]:
         """The effective configuration: ``population_size`` as started (cma's default
         computed), ``recurrent`` as decided for the task (or the file's mode); with a
-        network file also its SHA-256 (``network_sha256``)."""
-        out = {
+        network file also its SHA-256 (``network_sha256``, None without one)."""
+        return {
             **self.values,
             "population_size": self.first_population,
             "recurrent": self.template.base.mode == "recurrent",
         }
-        if self.file_sha256 is not None:
-            out["network_sha256"] = self.file_sha256
-        return out
 
     def ask(self) -> list[Network]:
         """cma's next population as networks (after a restart, when one was due)."""
@@ -235,9 +237,9 @@ def _layer_widths(value: list[Any]) -> list[int]:
     return list(value)
 
 
-def _read_network(path: str) -> tuple[Network, str]:
-    """The network in file ``path`` and the file's SHA-256; a :class:`SettingError` naming
-    the option and the file when it cannot be read or is not a valid network."""
+def _read_network(path: str) -> Network:
+    """The network in file ``path``; a :class:`SettingError` naming the option and the file
+    when it cannot be read or is not a valid network."""
     try:
         with open(path, "rb") as fh:
             data = fh.read()
@@ -249,4 +251,4 @@ def _read_network(path: str) -> tuple[Network, str]:
         network = loads(data.decode("utf-8", errors="replace"), where=path)
     except NeuroyardError as exc:
         raise SettingError(f"{OWNER}: option 'network': {exc}") from None
-    return network, hashlib.sha256(data).hexdigest()
+    return network

@@ -18,6 +18,7 @@ import math
 import numpy as np
 import pytest
 
+from neuroyard.harness.cli.main import main
 from neuroyard.harness.core.batch import compile_network
 from neuroyard.harness.core.compiled import run_sequence
 from neuroyard.harness.core.errors import EvolverError, NetworkError, SettingError
@@ -26,6 +27,7 @@ from neuroyard.harness.core.evolver_registry import EvolverSpec, load_factory
 from neuroyard.harness.core.network import from_dict, to_dict
 from neuroyard.harness.execution.campaign import plan_run
 from neuroyard.harness.execution.runner import run_one
+from neuroyard.harness.records.store import ResultStore
 from neuroyard.reference.cmaes import CmaEs
 from neuroyard.reference.weight_template import from_network, layered
 from neuroyard.tasks import make
@@ -319,6 +321,40 @@ def test_network_file_round_trips(tmp_path):
     record = run("xor-v2", budget=1000, network=str(path), initial_step_size=1e-6)
     assert (record.status, record.generations) == ("solved", 1)
     assert from_network(file_network).n_weights == evolver.template.n_weights
+
+
+def test_the_run_key_covers_the_network_files_content(tmp_path, capsys):
+    # the digest is hashlib's SHA-256 of the file's bytes; a changed file is another
+    # configuration, so its runs are made anew and the old ones are kept
+    path = tmp_path / "xor.json"
+    path.write_text(json.dumps(to_dict(layered(2, 1, [2]).base)))
+    first = EvolverSpec("cmaes", {"network": str(path)})
+    digest = hashlib.sha256(path.read_bytes()).hexdigest()
+    assert first.effective_config["network_sha256"] == digest
+    # a configuration without a file keeps the hash it had before the digest was declared
+    plain = EvolverSpec("cmaes").effective_config
+    assert plain.pop("network_sha256") is None
+    before = hashlib.sha256(json.dumps(plain, sort_keys=True, default=str).encode())
+    assert EvolverSpec("cmaes").config_hash == before.hexdigest()[:12]
+
+    store = str(tmp_path / "s.db")
+    argv = ["run", "--evolver", "cmaes", "--param", f"network={path}", "--task", "xor-v2",
+            "--runs", "2", "--budget", "60", "--store", store, "--quiet"]  # fmt: skip
+    assert main(argv) == 0
+    assert main(argv) == 0  # the same file: nothing runs again
+    with ResultStore(store, write=False) as s:
+        records = list(s.records(with_log=False))
+    assert len(records) == 2 and {r.config_hash for r in records} == {first.config_hash}
+    assert all(r.evolver_settings["network_sha256"] == digest for r in records)
+
+    path.write_text(json.dumps(to_dict(layered(2, 1, [3]).base)))
+    with pytest.raises(EvolverError, match="its content changed since the runs were planned"):
+        EvolverSpec("cmaes", records[0].evolver_settings).build()
+    assert EvolverSpec("cmaes", {"network": str(path)}).config_hash != first.config_hash
+    assert main(argv) == 0
+    with ResultStore(store, write=False) as s:
+        assert len(list(s.records(with_log=False))) == 4
+    capsys.readouterr()
 
 
 def test_network_file_of_another_task_fails_its_run(tmp_path):

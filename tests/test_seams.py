@@ -8,6 +8,7 @@ counts of the runner checked against an independent count of the task's calls.
 
 from __future__ import annotations
 
+import hashlib
 import json
 import shutil
 from pathlib import Path
@@ -104,6 +105,27 @@ def test_option_errors_name_the_option_value_and_range() -> None:
         with pytest.raises(SettingError) as info:
             table.resolve(given)
         assert words in str(info.value)
+
+
+def test_a_digest_option_holds_the_named_files_sha256(tmp_path) -> None:
+    # the digest is checked against hashlib's SHA-256 of the file's bytes
+    table = OptionTable(
+        "evolver e",
+        [Option("file", None, kind=str), Option("file_sha256", None, kind=str, digest_of="file")],
+    )
+    assert table.resolve({}) == {"file": None, "file_sha256": None}
+    path = tmp_path / "f.bin"
+    path.write_bytes(b"one")
+    digest = hashlib.sha256(b"one").hexdigest()
+    assert table.resolve({"file": str(path)})["file_sha256"] == digest
+    assert table.resolve({"file": str(path), "file_sha256": digest})["file_sha256"] == digest
+    path.write_bytes(b"two")
+    with pytest.raises(SettingError, match=r"'file': .*f.bin: its content changed since the "
+                       r"runs were planned \(sha256 [0-9a-f]{12}\.\.\., planned "
+                       + digest[:12]):  # fmt: skip
+        table.resolve({"file": str(path), "file_sha256": digest})
+    with pytest.raises(SettingError, match=r"none.bin: cannot be read \(No such file"):
+        table.resolve({"file": str(tmp_path / "none.bin")})
 
 
 def test_evolvers_are_listed_with_their_options_and_sources(capsys) -> None:

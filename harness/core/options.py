@@ -9,7 +9,11 @@ the source of its default. An :class:`OptionTable` of them is used for everythin
   and what is allowed;
 * the effective-settings record: ``resolve`` returns every option with its value, given or
   default, so a run records all of them;
-* listing (:meth:`OptionTable.describe`): ``neuroyard tasks`` and ``neuroyard evolvers``.
+* listing (:meth:`OptionTable.describe`): ``neuroyard tasks`` and ``neuroyard evolvers``;
+* the identity of a file's content: an option with ``digest_of`` holds the SHA-256 of the
+  file that another option names, filled in by ``resolve``, so a configuration hash or run
+  key built from the resolved values changes when the file does, and a stored digest that
+  no longer matches the file is refused.
 
 Types: an int may stand for a float (and becomes a float); a bool is never a number. A value
 given as text for a non-text option (``key=value`` on a command line or in a file) is read
@@ -19,10 +23,12 @@ in ``aliases``, so stored configurations that use them still resolve.
 
 from __future__ import annotations
 
+import hashlib
 import math
 import tomllib
 from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass
+from pathlib import Path
 from typing import Any
 
 from neuroyard.harness.core.errors import SettingError
@@ -50,6 +56,8 @@ class Option:
     ``unit``: of the value (``"s"``, ``"kg"``; empty for counts and plain numbers).
     ``source``: where the default comes from (a paper and section, ``common practice``,
     ``from memory`` or ``ours``). ``aliases``: former names that are still read.
+    ``digest_of``: the name of a path option; this option is then the SHA-256 (hex) of that
+    file's bytes, filled in on resolving (None while the path is None).
     """
 
     name: str
@@ -63,6 +71,7 @@ class Option:
     choices: tuple[Any, ...] = ()
     kind: type | None = None
     aliases: tuple[str, ...] = ()
+    digest_of: str = ""
 
     @property
     def type_name(self) -> str:
@@ -190,7 +199,29 @@ class OptionTable:
                 )
             seen[name] = key
             values[name] = self._options[name].check(raw, self.owner, self.noun, self.error)
+        for option in self._options.values():
+            if option.digest_of:
+                values[option.name] = self._digest(option, values)
         return values
+
+    def _digest(self, option: Option, values: Mapping[str, Any]) -> str | None:
+        """The SHA-256 of the file named by ``option.digest_of``; an error when the file
+        cannot be read, or when a digest was given (a stored run's) and the file's content
+        no longer has it."""
+        path, given = values[option.digest_of], values[option.name]
+        if path is None:
+            return given
+        where = f"{self.owner}: {self.noun} {option.digest_of!r}: {path}"
+        try:
+            found = hashlib.sha256(Path(path).read_bytes()).hexdigest()
+        except OSError as exc:
+            raise self.error(f"{where}: cannot be read ({exc.strerror})") from None
+        if given not in (None, found):
+            raise self.error(
+                f"{where}: its content changed since the runs were planned "
+                f"(sha256 {found[:12]}..., planned {given[:12]}...)"
+            )
+        return found
 
     def describe(self) -> list[dict[str, Any]]:
         return [option.describe() for option in self._options.values()]

@@ -21,7 +21,6 @@ and a run's final positions (:mod:`.picture`).
 
 from __future__ import annotations
 
-import hashlib
 import math
 from collections.abc import Sequence
 from dataclasses import replace
@@ -274,21 +273,13 @@ retire(
 )
 
 
-def file_sha256(path: str) -> str:
-    """The SHA-256 of a maze file's bytes, in hex (a TaskError names a file not readable)."""
-    try:
-        return hashlib.sha256(Path(path).read_bytes()).hexdigest()
-    except OSError as exc:
-        raise TaskError(f"maze file {path}: cannot be read ({exc.strerror})") from None
-
-
 @register
 class MazeFile(MazeTask):
     """A maze file of the user's: ``--task maze:PATH`` is this task with ``file = PATH``.
 
-    The run's identity covers the file's content: building the task fills ``sha256`` in
+    The run's identity covers the file's content: resolving the settings fills ``sha256`` in
     with the file's hash, and a task built with a ``sha256`` (a stored run, a resumed
-    campaign) refuses a file whose content no longer has it."""
+    campaign) refuses a file whose content no longer has it (``Option.digest_of``)."""
 
     id = "maze-file-v1"
     description = "a maze of the user's"
@@ -297,21 +288,14 @@ class MazeFile(MazeTask):
         Option("file", None, "path of the maze file (neuroyard.tasks.maze.mazefile has "
                "the format)", kind=str, source="ours"),
         Option("sha256", None, "SHA-256 of the file's content, filled in when the task "
-               "is built; a file with other content is refused", kind=str, source="ours"),
+               "is built; a file with other content is refused", kind=str, source="ours",
+               digest_of="file"),
     )  # fmt: skip
 
     def check_settings(self) -> None:
         path = self.settings["file"]
         if path is None:
             raise TaskError(f"task {self.id}: the setting 'file' is required (--task maze:PATH)")
-        found = file_sha256(path)
-        planned = self.settings["sha256"]
-        if planned not in (None, found):
-            raise TaskError(
-                f"maze file {path}: its content changed since the runs were planned "
-                f"(sha256 {found[:12]}..., planned {planned[:12]}...)"
-            )
-        self.settings["sha256"] = found
 
     def load(self) -> tuple[Maze, Deception]:
         path = self.settings["file"]
