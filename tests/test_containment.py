@@ -64,8 +64,11 @@ def test_one_ctrl_c_stops_cleanly(tmp_path, workers):
     store = tmp_path / "ctrl-c.db"
     cmd = [*NEUROYARD, "run", "--evolver", "neat", "--task", "pole2-nonmarkov-v1", "--runs",
            "4", "--store", str(store), "--workers", str(workers)]  # fmt: skip
+    # a terminal's foreground job takes Ctrl-C; a suite started in the background of a
+    # non-interactive shell inherits SIGINT ignored, which the child must not inherit here
     proc = subprocess.Popen(cmd, start_new_session=True, stdout=subprocess.PIPE,
-                            stderr=subprocess.PIPE, text=True)  # fmt: skip
+                            stderr=subprocess.PIPE, text=True,
+                            preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))  # fmt: skip
     deadline = time.time() + 60
     while time.time() < deadline and len(session_processes(proc.pid)) < 1 + workers:
         time.sleep(0.1)  # until the workers have started
