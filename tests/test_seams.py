@@ -126,6 +126,8 @@ def test_a_digest_option_holds_the_named_files_sha256(tmp_path) -> None:
         table.resolve({"file": str(path), "file_sha256": digest})
     with pytest.raises(SettingError, match=r"none.bin: cannot be read \(No such file"):
         table.resolve({"file": str(tmp_path / "none.bin")})
+    with pytest.raises(SettingError, match="'file_sha256' is the digest of 'file' and cannot"):
+        table.resolve({"file_sha256": digest})
 
 
 def test_evolvers_are_listed_with_their_options_and_sources(capsys) -> None:

@@ -205,12 +205,17 @@ class OptionTable:
         return values
 
     def _digest(self, option: Option, values: Mapping[str, Any]) -> str | None:
-        """The SHA-256 of the file named by ``option.digest_of``; an error when the file
-        cannot be read, or when a digest was given (a stored run's) and the file's content
-        no longer has it."""
+        """The SHA-256 of the file named by ``option.digest_of`` (None without a file); an
+        error when the file cannot be read, when a digest was given (a stored run's) and the
+        file's content no longer has it, or when a digest was given without a file."""
         path, given = values[option.digest_of], values[option.name]
         if path is None:
-            return given
+            if given is not None:
+                raise self.error(
+                    f"{self.owner}: {self.noun} {option.name!r} is the digest of "
+                    f"{option.digest_of!r} and cannot be given without it"
+                )
+            return None
         where = f"{self.owner}: {self.noun} {option.digest_of!r}: {path}"
         try:
             found = hashlib.sha256(Path(path).read_bytes()).hexdigest()
