@@ -19,6 +19,7 @@ from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execu
 from neuroyard.harness.execution.supervisor import Supervisor
 from neuroyard.harness.records.store import ResultStore
 from neuroyard.harness.reports.compare import compare, configurations
+from neuroyard.harness.reports.comparison_renderers import comparison_text
 
 RUNS, BUDGET = 12, 12_000
 
@@ -117,3 +118,27 @@ def test_text_and_markdown_fit_120_columns(store, capsys) -> None:
         assert code == 0
         assert max(len(line) for line in out.splitlines()) <= 120
         assert "B solves with fewer evaluations" in out
+
+
+def test_a_wide_table_and_a_long_heading_are_not_broken(store) -> None:
+    # a maze file's settings (its path and SHA-256) make a long heading, and medians with
+    # wide interquartile ranges a table wider than 120 columns: Markdown (the GitHub table
+    # format) needs each row and each heading on one line
+    with ResultStore(store, write=False) as results:
+        groups = configurations(results.records(with_log=False))
+    neat = groups[f"neat [{_hash(store, 'neat', {})}]"]
+    task = compare("A", neat, "B", neat).tasks[0]
+    wide = "151,250 [64,875-202,000] and then some more width"
+    rows = tuple(dataclasses.replace(row, a=wide, b=wide) for row in task.rows)
+    task = dataclasses.replace(
+        task, rows=rows, task_settings={"file": "x" * 60, "sha256": "f" * 64}
+    )
+    comparison = dataclasses.replace(compare("A", neat, "B", neat), tasks=(task,))
+    lines = comparison_text(comparison, "markdown").splitlines()
+    table = [line for line in lines if line.startswith("|")]
+    assert len(table) == 2 + len(rows) and all(line.endswith("|") for line in table)
+    assert max(len(line) for line in table) > 120
+    (heading,) = [line for line in lines if line.startswith("### ")]
+    assert heading.endswith(f"): {task.runs} runs")
+    prose = [line for line in lines if not line.startswith(("|", "### "))]
+    assert max(len(line) for line in prose) <= 120

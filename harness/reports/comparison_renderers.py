@@ -1,7 +1,7 @@
 """How a :class:`~.compare.Comparison` is written: text, Markdown and JSON.
 
-Text lines stay within 120 columns: each task has a table of figures and tests, and its
-verdicts below it, one per line.
+Prose stays within 120 columns: each task has a table of figures and tests, and its
+verdicts below it, one per line. Tables and Markdown headings are never broken.
 """
 
 from __future__ import annotations
@@ -28,18 +28,19 @@ NOTES = (
 
 
 def comparison_text(comparison: Comparison, fmt: str = "text") -> str:
-    """The comparison as aligned text tables (``fmt`` "text") or GitHub Markdown."""
-    table_format = "github" if fmt == "markdown" else "simple"
-    heading = "### " if fmt == "markdown" else ""
-    bullet = "- " if fmt == "markdown" else "  "
+    """The comparison as aligned text tables (``fmt`` "text") or GitHub Markdown. Prose is
+    broken at 120 columns; a table row or a Markdown heading never is, since a break would
+    break the table or the heading."""
+    markdown = fmt == "markdown"
+    table_format = "github" if markdown else "simple"
+    bullet = "- " if markdown else "  "
     lines = [f"A: {comparison.a}", f"B: {comparison.b}", f"level: {comparison.alpha:g}"]
-    if fmt == "markdown":
-        lines = [bullet + line for line in lines]
+    lines = _wrapped([bullet + line for line in lines] if markdown else lines)
     for task in comparison.tasks:
         settings = settings_text(task.task, task.task_settings)
-        lines += ["", f"{heading}{task.task} ({settings}): {task.runs} runs"]
-        for note in task.notes:
-            lines.append(f"{bullet}note: {note}")
+        title = f"{task.task} ({settings}): {task.runs} runs"
+        lines += ["", f"### {title}"] if markdown else ["", *_wrapped([title])]
+        lines += _wrapped([f"{bullet}note: {note}" for note in task.notes])
         if not task.rows:
             continue
         table = [
@@ -49,12 +50,12 @@ def comparison_text(comparison: Comparison, fmt: str = "text") -> str:
         head = ["figure", "A", "B", "A12 / diff", "p (Holm)", "runs needed"]
         text = tabulate(table, head, tablefmt=table_format, disable_numparse=True)
         lines += ["", *text.splitlines(), ""]
-        lines += [f"{bullet}{row.metric}: {row.verdict}" for row in task.rows]
+        lines += _wrapped([f"{bullet}{row.metric}: {row.verdict}" for row in task.rows])
     if comparison.notes:
         lines.append("")
-        lines += [f"{bullet}note: {note}" for note in comparison.notes]
-    lines += ["", NOTES]
-    return "\n".join(_wrapped(lines))
+        lines += _wrapped([f"{bullet}note: {note}" for note in comparison.notes])
+    lines += ["", *_wrapped([NOTES])]
+    return "\n".join(lines)
 
 
 def settings_text(task_id: str, settings: dict) -> str:
@@ -94,7 +95,7 @@ def p_text(p: float | None) -> str:
 
 
 def _wrapped(lines: list[str], width: int = 120) -> list[str]:
-    """Prose lines longer than ``width`` broken at spaces (tables are narrower already)."""
+    """Prose lines longer than ``width`` broken at spaces."""
     out = []
     for line in lines:
         if len(line) <= width:
