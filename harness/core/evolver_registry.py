@@ -61,12 +61,9 @@ class EvolverSpec:
     def config_hash(self) -> str:
         """12 hex digits of the SHA-256 of the effective configuration. It covers the
         content of a file an option names when the option table holds its digest
-        (``Option.digest_of``); a digest with no file (None) is left out, so declaring one
-        leaves the hash of every configuration without a file as it was."""
-        digests = {o.name for o in option_table(load_factory(self.name)) or () if o.digest_of}
-        config = {
-            k: v for k, v in self.effective_config.items() if not (k in digests and v is None)
-        }
+        (``Option.digest_of``; :meth:`OptionTable.identity`)."""
+        table = option_table(load_factory(self.name))
+        config = self.effective_config if table is None else table.identity(self.effective_config)
         text = json.dumps(config, sort_keys=True, default=str)
         return hashlib.sha256(text.encode()).hexdigest()[:12]
 

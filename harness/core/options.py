@@ -228,6 +228,13 @@ class OptionTable:
             )
         return found
 
+    def identity(self, values: Mapping[str, Any]) -> dict[str, Any]:
+        """The resolved ``values`` that identify a configuration: all of them but a digest
+        without a file (None), so declaring a digest leaves the identity of every
+        configuration without a file as it was."""
+        unset = {o.name for o in self._options.values() if o.digest_of and values[o.name] is None}
+        return {k: v for k, v in values.items() if k not in unset}
+
     def describe(self) -> list[dict[str, Any]]:
         return [option.describe() for option in self._options.values()]
 
