@@ -105,12 +105,12 @@ def test_reward_thresholds_are_the_success_criteria_at_default_settings():
     assert gymnasium.spec("neuroyard/pole2-nonmarkov-v1").reward_threshold is None
     hard = make("maze-hard-v2")
     assert gymnasium.spec("neuroyard/maze-hard-v2").reward_threshold == hard.maze.diagonal - 5.0
-    assert gymnasium.spec("neuroyard/maze-gen-v2").reward_threshold is None
+    assert gymnasium.spec("neuroyard/maze-gen-v3").reward_threshold is None
 
 
 def test_make_passes_the_task_settings():
-    env = gymnasium.make("neuroyard/maze-gen-v2", seed=3, deception=0.2).unwrapped
-    assert env.task.settings == {"size": 2, "seed": 3, "deception": 0.2}
+    env = gymnasium.make("neuroyard/maze-gen-v3", seed=3, deception=0.2).unwrapped
+    assert env.task.settings == {"size": 200.0, "seed": 3, "deception": 0.2}
     env = gymnasium.make("neuroyard/pole2-markov-v1", episode_steps=20).unwrapped
     assert env.horizon == 20
 

@@ -105,16 +105,37 @@ def test_shipped_mazes_rank_by_deception():
 
 
 def test_the_knob_picks_the_candidate_nearest_the_score_asked():
-    kept = [m for m in (candidate(2, 5, k) for k in range(CANDIDATES)) if usable(m, RADIUS)]
+    kept = [m for m in (candidate(200.0, 5, k) for k in range(CANDIDATES)) if usable(m, RADIUS)]
     scores = [dm.measure(m, RADIUS, GOAL_RADIUS).deception for m in kept]
     for asked in (0.0, 0.04, 1.0):
-        _, figures = generated_maze(2, 5, asked, RADIUS, GOAL_RADIUS)
+        _, figures = generated_maze(200.0, 5, asked, RADIUS, GOAL_RADIUS)
         assert abs(figures.deception - asked) == min(abs(s - asked) for s in scores)
-    assert generated_maze(2, 5, 0.0, RADIUS, GOAL_RADIUS)[1].deception == min(scores)
-    assert generated_maze(2, 5, 1.0, RADIUS, GOAL_RADIUS)[1].deception == max(scores)
+    assert generated_maze(200.0, 5, 0.0, RADIUS, GOAL_RADIUS)[1].deception == min(scores)
+    assert generated_maze(200.0, 5, 1.0, RADIUS, GOAL_RADIUS)[1].deception == max(scores)
+
+
+@pytest.mark.parametrize("size", [160.0, 200.0, 300.0])
+def test_a_deeper_pocket_scores_higher(size):
+    """Ours, the family's design: candidate k + 1 has a longer wall and a deeper pocket than
+    candidate k, so its score is higher, and the range runs from a wall over the start to
+    the depth of our hard maze (its score 0.26)."""
+    for seed in range(3):
+        scores = [
+            dm.measure(candidate(size, seed, k), RADIUS, GOAL_RADIUS).deception
+            for k in range(CANDIDATES)
+        ]
+        assert all(b > a for a, b in zip(scores, scores[1:], strict=False)), scores
+        assert scores[0] < 0.06 and scores[-1] > 0.24
+
+
+def test_the_deepest_candidate_traps_a_robot_that_heads_for_the_goal():
+    """Ours: at the largest depth the straight line from the start ends under the long wall,
+    and the way round first leads further from the goal (a start trap)."""
+    figures = dm.measure(candidate(200.0, 0, CANDIDATES - 1), RADIUS, GOAL_RADIUS)
+    assert figures.start_trap > 0.3 and figures.detour > 3.0
 
 
 def test_a_generated_maze_is_the_same_from_the_same_settings():
-    a, b = candidate(2, 7, 4), candidate(2, 7, 4)
+    a, b = candidate(200.0, 7, 4), candidate(200.0, 7, 4)
     assert np.array_equal(a.walls, b.walls) and a.start == b.start and a.goal == b.goal
-    assert not np.array_equal(candidate(2, 8, 4).walls, a.walls)
+    assert not np.array_equal(candidate(200.0, 8, 4).walls, a.walls)

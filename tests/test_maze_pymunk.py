@@ -24,14 +24,16 @@ from neuroyard.tasks.maze import load_maze, sense, shipped_maze
 from neuroyard.tasks.maze.robot import MAX_SPEED, RADIUS, RANGE, blocked
 
 POSES = 300
-GENERATED = {f"gen size {size}": {"size": size, "seed": 4, "deception": 1.0} for size in (1, 2)}
+GENERATED = {
+    f"gen size {size:g}": {"size": size, "seed": 4, "deception": 1.0} for size in (160.0, 300.0)
+}
 MAZES = ["open", "medium", "hard", *GENERATED]
 
 
 def maze_named(name: str):
     """A shipped maze, or a generated one (the most deceptive the seed gives)."""
     if name in GENERATED:
-        return tasks.make("maze-gen-v2", **GENERATED[name]).maze
+        return tasks.make("maze-gen-v3", **GENERATED[name]).maze
     return load_maze(shipped_maze(name), RADIUS)
 
 
@@ -79,7 +81,7 @@ def random_network(rng: np.random.Generator) -> Network:
     return Network(tuple(nodes), tuple(links), "feedforward")
 
 
-@pytest.mark.parametrize("task_id", ["maze-medium-v1", "maze-hard-v2", "maze-gen-v2"])
+@pytest.mark.parametrize("task_id", ["maze-medium-v1", "maze-hard-v2", "maze-gen-v3"])
 def test_episodes_never_enter_a_wall_by_pymunk(task_id):
     """Every position of an episode keeps the robot's disc clear of every wall (pymunk
     point queries), and a step either moves at most the top speed or stays put."""

@@ -77,7 +77,7 @@ def test_a_broken_user_maze_is_one_line_and_exit_2(tmp_path, capsys):
 
 def test_generated_maze_facts_in_the_listing_and_the_records(tmp_path, capsys):
     code, out, _ = cli(
-        capsys, "tasks", "maze-gen-v2", "--setting", "seed=3", "--setting", "deception=0.08",
+        capsys, "tasks", "maze-gen-v3", "--setting", "seed=3", "--setting", "deception=0.08",
         "--format", "json",
     )  # fmt: skip
     assert code == 0
@@ -86,7 +86,7 @@ def test_generated_maze_facts_in_the_listing_and_the_records(tmp_path, capsys):
     assert set(facts) == {"deception", "trap_share", "start_trap", "detour"}
     store = str(tmp_path / "g.db")
     code, _, err = cli(
-        capsys, "run", "--task", "maze-gen-v2", "--setting", "seed=3", "--setting",
+        capsys, "run", "--task", "maze-gen-v3", "--setting", "seed=3", "--setting",
         "deception=0.08", "--evolver", "rwg", "--runs", "1", "--budget", "20", "--store",
         store, "--quiet",
     )  # fmt: skip

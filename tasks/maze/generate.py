@@ -1,22 +1,33 @@
-"""Mazes generated from a seed, with a knob for their deception (``maze-gen-v2``).
+"""Mazes generated from a seed, with a knob for their deception (``maze-gen-v3``).
 
-A generated maze is a 200 x 200 arena (the size of our shipped mazes) in which the robot
-starts in the middle of ``size`` nested square pockets, facing the goal, which lies
-outside them all. Each pocket is closed but for a mouth ``MOUTH`` units wide. From the seed
-come ``CANDIDATES`` candidate mazes, each with its own start, goal and inner pocket size
-(drawn uniformly); candidate k turns the mouths away from the goal by k / (CANDIDATES - 1)
-of a half turn, to alternate sides from one pocket to the next: candidate 0's mouths face
-the goal (a robot that heads for the goal drives straight out), the last candidate's face
-away from it (a robot that heads for the goal is trapped against the pocket's far wall,
-and the way out leads away from the goal first, as in our hard maze). A candidate whose
-start or goal lies within the robot's radius of a wall, or whose goal cannot be reached
-(the grid path search of :mod:`.deception`), is dropped. The maze given is the candidate
-whose deception score lies nearest the ``deception`` asked for (the first of equals), so
-the knob asks for a score, and the score the maze has is what a run records. All of it is
-ours.
+Every maze of the family is a pocket under a long wall, drawn in a square arena ``size``
+units wide (all lengths below are for a side of 200 and scale with ``size``). In the
+family's own frame the goal lies in a corridor along the top of the arena, under which a
+long wall runs from the left side; the robot starts below that wall, facing it, so a robot
+that heads for the goal stops under the wall. A second wall, the pocket's right side, runs
+down from the long wall. Candidate ``k`` of ``CANDIDATES`` sets the depth
+t = k / (CANDIDATES - 1) of the trap:
 
-Version 1 of the family (walls across the arena with one gap each) is retired: objective
-NEAT's success on it did not follow its deception score (results/maze/README.md).
+* the long wall reaches from the left side to ``x = P + t (160 - P)`` (P: the pocket's
+  width), so the way into the top corridor lies further right the larger t is;
+* the pocket's right side runs from the long wall down to ``y = W - t (W - 35)`` (W: the
+  long wall's height), so for large t the robot starts inside a pocket that opens only at
+  its bottom, and the way out leads down and away from the goal first.
+
+t = 0 leaves a wall over the pocket only (the robot goes round its end); t = 1 is a pocket
+as deep and a detour as long as in our hard maze. The seed draws what the candidates of a
+seed share: the pocket's width P in [55, 65], the top corridor's height in [45, 55], the
+start (about 50 below the long wall, near the pocket's middle), the goal (in the top
+corridor, 20 to 40 from the left side), and one of the eight turns and reflections of the
+square that the family's frame is drawn in. A candidate whose start or goal lies within
+the robot's radius of a wall, or whose goal the robot's disc cannot reach (the grid path
+search of :mod:`.deception`), is dropped. The maze given is the candidate whose deception
+score lies nearest the ``deception`` asked for (the first of equals): the knob asks for a
+score, and the score the maze has is what a run records. All of it is ours.
+
+Version 1 of the family (walls across the arena with one gap each) and version 2 (nested
+square pockets with 30-unit mouths) are retired: objective NEAT's success on them did not
+follow the deception score (results/maze/README.md).
 """
 
 from __future__ import annotations
@@ -29,64 +40,68 @@ import numpy as np
 from .deception import Deception, measure
 from .mazefile import Maze, arena_sides, wall_within
 
-ARENA = 200.0  # units of length, the side of the square arena (as our shipped mazes)
 CANDIDATES = 24
-MOUTH = 30.0  # units of length, the width of a pocket's mouth (the robot's diameter is 16)
-INNER = (20.0, 26.0)  # range of the inner pocket's half-width
-SPACING = 24.0  # how much wider each pocket is than the one inside it, per side
-MARGIN = 20.0  # least room between the outer pocket and the arena's sides
+BASE = 200.0  # units of length: the arena side that the lengths below are given for
+POCKET_WIDTH = (55.0, 65.0)
+CORRIDOR_HEIGHT = (45.0, 55.0)  # the top corridor, between the long wall and the top side
+START_BELOW_WALL = (45.0, 55.0)
+START_OFF_MIDDLE = 6.0  # most the start lies left or right of the pocket's middle
+GOAL_FROM_LEFT = (20.0, 40.0)
+GOAL_OFF_MIDDLE = 5.0  # most the goal lies above or below the corridor's middle
+DEEPEST_END = 35.0  # height of the pocket side's lower end at t = 1
+LONGEST_GAP = 40.0  # width of the way into the top corridor at t = 1
 STEPS = 400  # from memory (reference/SOURCES.md: lehman2011; maze protocol)
 
 
-def _pocket(cx: float, cy: float, half: float, angle: float) -> list[tuple[float, ...]]:
-    """The walls of a square pocket centred at (cx, cy), ``half`` its half-width, with a
-    mouth in the side that the direction ``angle`` (rad) leaves it through, centred where
-    that ray meets the side (moved along it so that the mouth lies within the side)."""
-    dx, dy = math.cos(angle), math.sin(angle)
-    vertical = abs(dx) >= abs(dy)  # the ray leaves through the left or the right side
-    sign = math.copysign(1.0, dx if vertical else dy)
-    along = (dy if vertical else dx) * half / max(abs(dx), abs(dy))  # along the side
-    t = min(half - MOUTH / 2, max(-half + MOUTH / 2, along))
-    left, right, bottom, top = cx - half, cx + half, cy - half, cy + half
-    sides = {
-        (True, -1.0): (left, bottom, left, top),
-        (True, 1.0): (right, bottom, right, top),
-        (False, -1.0): (left, bottom, right, bottom),
-        (False, 1.0): (left, top, right, top),
-    }
-    walls = [wall for key, wall in sides.items() if key != (vertical, sign)]
-    x1, y1, x2, y2 = sides[(vertical, sign)]
-    if vertical:
-        walls += [(x1, y1, x1, cy + t - MOUTH / 2), (x1, cy + t + MOUTH / 2, x1, y2)]
-    else:
-        walls += [(x1, y1, cx + t - MOUTH / 2, y1), (cx + t + MOUTH / 2, y1, x2, y1)]
-    return [w for w in walls if (w[0], w[1]) != (w[2], w[3])]  # a mouth in a corner
+def _placed(
+    points: list[tuple[float, float]], side: float, turns: int, mirrored: bool
+) -> list[tuple[float, float]]:
+    """``points`` of the family's frame in the arena: reflected in the vertical middle line
+    when ``mirrored``, then turned by ``turns`` quarter turns about the centre."""
+    placed = []
+    for x, y in points:
+        if mirrored:
+            x = side - x
+        for _ in range(turns):
+            x, y = side - y, x  # a quarter turn counter-clockwise about the centre
+        placed.append((x, y))
+    return placed
 
 
-def candidate(size: int, seed: int, k: int) -> Maze:
-    """Candidate ``k`` of the mazes of ``size`` pockets and ``seed`` (see the module doc)."""
-    rng = np.random.default_rng([seed, size, k])
-    inner = rng.uniform(*INNER)
-    outer = inner + (size - 1) * SPACING
-    cx, cy = rng.uniform(MARGIN + outer, ARENA - MARGIN - outer, 2)
-    while True:  # the goal: anywhere clear of the outer pocket (at least a quarter of the
-        # arena is, for the sizes the task allows)
-        gx, gy = rng.uniform(MARGIN / 2 + 4.0, ARENA - MARGIN / 2 - 4.0, 2)
-        if max(abs(gx - cx), abs(gy - cy)) > outer + MARGIN / 2 + 4.0:
-            break
-    towards = math.atan2(gy - cy, gx - cx)
-    turn = math.pi * k / (CANDIDATES - 1)
-    walls = []
-    for n in range(size):
-        side = 1.0 if n % 2 == 0 else -1.0  # mouths on alternate sides of the goal's line
-        walls += _pocket(cx, cy, inner + n * SPACING, towards + side * turn)
+def candidate(size: float, seed: int, k: int) -> Maze:
+    """Candidate ``k`` of the mazes of ``size`` and ``seed`` (see the module doc)."""
+    rng = np.random.default_rng([seed, round(size * 1000)])
+    scale = size / BASE
+    pocket = rng.uniform(*POCKET_WIDTH) * scale
+    corridor = rng.uniform(*CORRIDOR_HEIGHT) * scale
+    wall_y = size - corridor
+    start = (
+        pocket / 2 + rng.uniform(-START_OFF_MIDDLE, START_OFF_MIDDLE) * scale,
+        wall_y - rng.uniform(*START_BELOW_WALL) * scale,
+    )
+    goal = (
+        rng.uniform(*GOAL_FROM_LEFT) * scale,
+        size - corridor / 2 + rng.uniform(-GOAL_OFF_MIDDLE, GOAL_OFF_MIDDLE) * scale,
+    )
+    turns, mirrored = int(rng.integers(4)), bool(rng.integers(2))
+    t = k / (CANDIDATES - 1)
+    wall_end = pocket + t * (size - LONGEST_GAP * scale - pocket)
+    side_end = wall_y - t * (wall_y - DEEPEST_END * scale)
+    segments = [((0.0, wall_y), (wall_end, wall_y))]
+    if side_end < wall_y:
+        segments.append(((pocket, wall_y), (pocket, side_end)))
+    walls = [(*a, *b) for a, b in (_placed([p, q], size, turns, mirrored) for p, q in segments)]
+    (sx, sy), (ahead_x, ahead_y), (gx, gy) = _placed(
+        [start, (start[0], start[1] + 1.0), goal], size, turns, mirrored
+    )
+    heading = math.degrees(math.atan2(ahead_y - sy, ahead_x - sx)) % 360.0
     return Maze(
-        name=f"maze-gen-v2 size={size} seed={seed} (candidate {k})",
-        width=ARENA,
-        height=ARENA,
-        walls=np.array(walls + arena_sides(ARENA, ARENA), dtype=np.float64),
-        start=(float(cx), float(cy), math.degrees(towards)),
-        goal=(float(gx), float(gy)),
+        name=f"maze-gen-v3 size={size:g} seed={seed} (candidate {k})",
+        width=size,
+        height=size,
+        walls=np.array(walls + arena_sides(size, size), dtype=np.float64),
+        start=(sx, sy, heading),
+        goal=(gx, gy),
         steps=STEPS,
     )
 
@@ -101,7 +116,7 @@ def usable(maze: Maze, radius: float) -> bool:
 
 @lru_cache(maxsize=64)
 def generated_maze(
-    size: int, seed: int, deception: float, radius: float, goal_radius: float
+    size: float, seed: int, deception: float, radius: float, goal_radius: float
 ) -> tuple[Maze, Deception]:
     """The maze of ``size`` and ``seed`` whose deception score lies nearest ``deception``,
     with its figures, for a robot of ``radius`` that must end within ``goal_radius``."""
@@ -117,5 +132,5 @@ def generated_maze(
         if best is None or gap < best[0]:
             best = (gap, k, maze, figures)
     if best is None:
-        raise AssertionError(f"maze-gen-v2 size={size} seed={seed}: no candidate is usable")
+        raise AssertionError(f"maze-gen-v3 size={size:g} seed={seed}: no candidate is usable")
     return best[2], best[3]

@@ -6,7 +6,7 @@
 | maze-medium-v1  | mazes/medium.toml    | two staggered walls: an S-shaped route                |
 | maze-hard-v2    | mazes/hard.toml      | the straight route ends in a closed pocket            |
 | maze-file-v1    | setting ``file``     | a maze file of the user's (``--task maze:PATH``)      |
-| maze-gen-v2     | generated            | a maze from ``size``, ``seed`` and ``deception``      |
+| maze-gen-v3     | generated            | a maze from ``size``, ``seed`` and ``deception``      |
 
 The mazes are ours (the published maps exist only as figures); the robot and the protocol
 follow (reference/SOURCES.md: lehman2011; maze robot; maze protocol). Fitness =
@@ -311,19 +311,20 @@ register_form("maze", MazeFile.id, "file")
 
 @register
 class GeneratedMaze(MazeTask):
-    """A generated maze (:mod:`.generate`): ``size`` nested pockets around the start, each
-    with a mouth; ``seed`` draws the candidates; ``deception`` asks for a deception score."""
+    """A generated maze (:mod:`.generate`): a pocket under a long wall in an arena ``size``
+    units wide; ``seed`` draws the candidates; ``deception`` asks for a deception score."""
 
-    id = "maze-gen-v2"
+    id = "maze-gen-v3"
     description = "a generated maze"
     options = (
-        Option("size", 2, "nested pockets around the start, each with one mouth", low=1,
-               high=2, source="ours"),
+        Option("size", 200.0, "side of the square arena; every wall, the start and the "
+               "goal scale with it, the robot and its 400 steps do not", unit="units of length",
+               low=160.0, high=300.0, source="ours"),
         Option("seed", 0, "seed of the maze's candidates (not the run's seed)", low=0,
                source="ours"),
-        Option("deception", 0.05, f"deception score asked for: of {CANDIDATES} candidates "
-               "the maze is the one whose score lies nearest", low=0.0, high=1.0,
-               source="ours"),
+        Option("deception", 0.15, f"deception score asked for: of {CANDIDATES} candidates, "
+               "from a wall over the start to a deep pocket, the maze is the one whose score "
+               "lies nearest", low=0.0, high=1.0, source="ours"),
     )  # fmt: skip
 
     def load(self) -> tuple[Maze, Deception]:
@@ -333,13 +334,20 @@ class GeneratedMaze(MazeTask):
     @property
     def origin(self) -> str:
         s = self.settings
-        return f"size {s['size']}, seed {s['seed']}, deception asked {s['deception']}"
+        return f"size {s['size']:g}, seed {s['seed']}, deception asked {s['deception']}"
 
 
 retire(
     "maze-gen-v1",
     GeneratedMaze.id,
     "version 1 (walls across the arena, each with a gap) did not make objective NEAT's "
-    "success follow its deception score (results/maze/README.md); version 2 nests pockets "
-    "around the start",
+    "success follow its deception score (results/maze/README.md); version 3 puts the start "
+    "in a pocket whose depth the deception score sets",
+)
+retire(
+    "maze-gen-v2",
+    GeneratedMaze.id,
+    "version 2 (nested square pockets with 30-unit mouths) did not make objective NEAT's "
+    "success follow its deception score significantly (results/maze/README.md); version 3 "
+    "puts the start in a pocket whose depth the deception score sets",
 )

@@ -1,9 +1,9 @@
 """Success against deception on the generated maze family (issue 17).
 
-Ten mazes of ``maze-gen-v2`` (size 2, seeds 0-9, the deception score asked for rising from
-0 to 0.09 in steps of 0.01), ten runs of objective NEAT and ten of novelty search on
-each, 50,000 evaluations per run (a fifth of the paper's budget, ours: the family is a
-yardstick of deception, not a reproduction). Both sides are the NEAT of the maze study
+Ten mazes of ``maze-gen-v3`` (size 200, seeds 0-9, the deception score asked for rising from
+0 to 0.27 in steps of 0.03, which spans the family's scores), ten runs of objective NEAT
+and ten of novelty search on each, 100,000 evaluations per run (two fifths of the paper's
+budget, ours: the family is a yardstick of deception, not a reproduction). Both sides are the NEAT of the maze study
 (``tests/slow/maze_study.py``: ``neat-novelty`` with its free parameter). The runs go
 to ``results/maze/family.sqlite`` (resumable); ``results/maze/family.json`` holds the
 success rate of each side on each maze beside the maze's recorded deception score, the
@@ -38,9 +38,9 @@ RESULTS = Path(__file__).resolve().parents[2] / "results" / "maze"
 SEED = 1
 WORKERS = 2
 RUNS = 10
-BUDGET = 50_000
-MAZES = [{"size": 2, "seed": n, "deception": round(0.01 * n, 3)} for n in range(10)]
-TASK = "maze-gen-v2"
+BUDGET = 100_000
+MAZES = [{"size": 200.0, "seed": n, "deception": round(0.03 * n, 3)} for n in range(10)]
+TASK = "maze-gen-v3"
 SIDES = ("fitness", "novelty")
 
 
