@@ -8,7 +8,8 @@ budget, ours: the family is a yardstick of deception, not a reproduction). Both 
 to ``results/maze/family.sqlite`` (resumable); ``results/maze/family.json`` holds the
 success rate of each side on each maze beside the maze's recorded deception score, the
 Spearman correlation of success rate with the score (scipy.stats.spearmanr) and the
-least-squares slope of each side (scipy.stats.linregress). Run with::
+least-squares slope of each side (scipy.stats.linregress); ``results/maze/family.png``
+plots both sides' success rates against the score. Run with::
 
     pytest -m slow tests/slow/test_study_maze_family.py -s
 
@@ -57,7 +58,35 @@ def run_family() -> dict[str, Any]:
 
         execute(plan, store, Supervisor(WORKERS), progress=False, on_record=write_summary)
         write_summary()
-        return summary_document(list(store.records(with_log=False)))
+        doc = summary_document(list(store.records(with_log=False)))
+        plot_success(doc, RESULTS / "family.png")
+        return doc
+
+
+def plot_success(doc: dict[str, Any], out: Path) -> None:
+    """Each side's success rate on each maze against the maze's deception score."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    fig, ax = plt.subplots(figsize=(6.4, 4.0), dpi=100)
+    for s, label, marker in (
+        ("fitness", "objective NEAT", "o"),
+        ("novelty", "novelty search", "s"),
+    ):
+        done = [m for m in doc["mazes"] if m[s]["runs"]]
+        score = [m["deception"] for m in done]
+        rate = [m[s]["solved"] / m[s]["runs"] for m in done]
+        ax.plot(score, rate, marker=marker, linestyle="none", label=label)
+    ax.set_xlabel("deception score of the maze")
+    ax.set_ylabel(f"share solved ({RUNS} runs of {BUDGET:,} evaluations)")
+    ax.set_ylim(-0.05, 1.05)
+    ax.set_title(f"{TASK}: success against deception (campaign seed {SEED})")
+    ax.legend(loc="lower left")
+    fig.tight_layout()
+    fig.savefig(out)
+    plt.close(fig)
 
 
 def summary_document(records: list[RunRecord]) -> dict[str, Any]:
