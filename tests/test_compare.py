@@ -101,7 +101,7 @@ def test_runs_are_paired_on_their_seeds(store) -> None:
 
 def test_sides_are_chosen_by_name_with_clear_errors(store, capsys) -> None:
     code, _, err = cli(capsys, "compare", "--store", str(store), "--a", "neat", "--b", "rwg")
-    assert code == 2 and "2 configurations matches 'neat'" in err and "add @HASH" in err
+    assert code == 2 and "2 configurations match 'neat'" in err and "add @HASH" in err
     code, _, err = cli(capsys, "compare", "--store", str(store), "--a", "cmaes", "--b", "rwg")
     assert code == 2 and "no configuration matches 'cmaes'" in err
     code, _, err = cli(capsys, "compare", "--store", str(store))

@@ -103,8 +103,8 @@ def test_every_task_with_a_step_form_has_an_environment():
 def test_reward_thresholds_are_the_success_criteria_at_default_settings():
     assert gymnasium.spec("neuroyard/pole2-markov-v1").reward_threshold == 100_000
     assert gymnasium.spec("neuroyard/pole2-nonmarkov-v1").reward_threshold is None
-    hard = make("maze-hard-v2")
-    assert gymnasium.spec("neuroyard/maze-hard-v2").reward_threshold == hard.maze.diagonal - 5.0
+    hard = make("maze-hard-v3")
+    assert gymnasium.spec("neuroyard/maze-hard-v3").reward_threshold == hard.maze.diagonal - 5.0
     assert gymnasium.spec("neuroyard/maze-gen-v3").reward_threshold is None
 
 

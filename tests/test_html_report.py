@@ -159,7 +159,7 @@ def test_the_html_report_of_a_campaign_renders_every_image(tmp_path, monkeypatch
 def test_the_html_report_of_maze_runs_shows_one_run_picture_per_maze(tmp_path, capsys):
     store = tmp_path / "mazes.db"
     for task, evolver, budget in (("maze-open-v1", "neat-novelty", "600"),
-                                  ("maze-hard-v2", "rwg", "200")):  # fmt: skip
+                                  ("maze-hard-v3", "rwg", "200")):  # fmt: skip
         argv = ["run", "--task", task, "--evolver", evolver, "--runs", "2", "--budget", budget]
         assert main([*argv, "--store", str(store), "--quiet"]) == 0
     page = tmp_path / "mazes.html"
@@ -167,7 +167,7 @@ def test_the_html_report_of_maze_runs_shows_one_run_picture_per_maze(tmp_path, c
     capsys.readouterr()
     seen, source = check_page(page, tmp_path)
     alts = re.findall(r'alt="where the evaluations of a run ended[^"]*, ([^",]+)"', source)
-    assert alts == ["maze-open-v1", "maze-hard-v2"]
+    assert alts == ["maze-open-v1", "maze-hard-v3"]
     assert "The run shown is the first solved run" in seen["text"]
 
 

@@ -75,7 +75,8 @@ def test_free_cells_match_the_point_to_segment_distance_in_numpy():
 @pytest.mark.parametrize("name", ["medium", "hard"])
 def test_pass_heights_equal_a_flooding_search(name):
     """The pass height of a cell is the lowest level L at which it is joined to the goal in
-    {free cells at distance <= L} (8-connected components by scipy.ndimage.label)."""
+    {free cells at distance <= L} (8-connected components by scipy.ndimage.label); a free
+    cell never joined to it (inside a closed block of walls) has none (inf)."""
     maze = load_maze(shipped_maze(name), RADIUS)
     free = dm.free_cells(maze, RADIUS)
     dist = dm._goal_distance(free.shape, maze.goal)
@@ -92,7 +93,11 @@ def test_pass_heights_equal_a_flooding_search(name):
             parts, _ = ndimage.label(free & (dist <= levels[mid]), structure=np.ones((3, 3)))
             joined = parts[i, j] != 0 and parts[i, j] == parts[gi, gj]
             lo, hi = (lo, mid) if joined else (mid + 1, hi)
-        assert heights[i, j] == levels[lo]
+        parts, _ = ndimage.label(free & (dist <= levels[lo]), structure=np.ones((3, 3)))
+        if parts[i, j] == parts[gi, gj]:
+            assert heights[i, j] == levels[lo]
+        else:
+            assert heights[i, j] == np.inf
 
 
 def test_shipped_mazes_rank_by_deception():

@@ -47,7 +47,7 @@ def artist(fig, gid: str):
 
 
 def test_the_picture_is_a_png_of_the_stated_size_and_the_same_every_time():
-    task = make("maze-hard-v2")
+    task = make("maze-hard-v3")
     positions = [[30.0, 140.0], [45.5, 20.25], [100.0, 170.0]]
     scene = task.scene(wandering_network(), positions, "a label")
     data = png(scene)
@@ -96,11 +96,11 @@ def run_campaign(capsys, task: str, store, evolver="rwg", budget="200") -> None:
 
 def test_replay_of_a_stored_maze_run_draws_its_final_positions(tmp_path, capsys):
     store = tmp_path / "runs.db"
-    run_campaign(capsys, "maze-hard-v2", store)
+    run_campaign(capsys, "maze-hard-v3", store)
     with ResultStore(store, write=False) as s:
         record = next(r for r in s.records(with_log=False) if r.run_index == 1)
     out = tmp_path / "run.png"
-    argv = ["replay", "--store", str(store), "--task", "maze-hard-v2", "--run", "1"]
+    argv = ["replay", "--store", str(store), "--task", "maze-hard-v3", "--run", "1"]
     assert main([*argv, "--out", str(out)]) == 0
     printed = capsys.readouterr().out
     assert printed.count("\n") == 1 and printed.startswith(f"{out}: ")
@@ -109,7 +109,7 @@ def test_replay_of_a_stored_maze_run_draws_its_final_positions(tmp_path, capsys)
     assert f"ends {record.success_details['final_distance']:.1f} units from the goal" in printed
     assert png_size(out.read_bytes()) == SIZE
     # the file holds the picture of that record: its sample and its best network
-    task = make("maze-hard-v2", **record.task_settings)
+    task = make("maze-hard-v3", **record.task_settings)
     label = f"rwg, run 1 ({record.status})"
     scene = task.scene(from_dict(record.best_network), record.behaviours, label)
     assert out.read_bytes() == png(scene)
@@ -117,11 +117,39 @@ def test_replay_of_a_stored_maze_run_draws_its_final_positions(tmp_path, capsys)
     # a network file on a maze task: its episode alone
     network = tmp_path / "net.json"
     network.write_text(dumps(wandering_network()))
-    argv = ["replay", "--network", str(network), "--task", "maze-hard-v2", "--steps", "100"]
+    argv = ["replay", "--network", str(network), "--task", "maze-hard-v3", "--steps", "100"]
     assert main([*argv, "--out", str(out)]) == 0
     ending = r": the network ends \S+ units from the goal after 100 of 400 steps\n"
     assert re.fullmatch(re.escape(str(out)) + ending, capsys.readouterr().out)
     assert png_size(out.read_bytes()) == SIZE
+
+
+def test_replay_names_the_configuration_where_a_store_holds_several(tmp_path, capsys):
+    """Two evolvers' runs of one task in a store: replay refuses to guess whose run 0 to
+    draw, in one line listing both, and --evolver picks one (compare's EVOLVER[@HASH])."""
+    store = tmp_path / "runs.db"
+    run_campaign(capsys, "maze-hard-v3", store)
+    run_campaign(capsys, "maze-hard-v3", store, evolver="hill-climber")
+    out = tmp_path / "run.png"
+    argv = ["replay", "--store", str(store), "--task", "maze-hard-v3", "--out", str(out)]
+    assert main(argv) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "runs of 2 configurations" in err
+    assert "hill-climber [" in err and "rwg [" in err and "--evolver" in err
+    assert not out.exists()
+    assert main([*argv, "--evolver", "hill-climber"]) == 0
+    assert "final positions" in capsys.readouterr().out
+    with ResultStore(store, write=False) as s:
+        record = next(
+            r for r in s.records(with_log=False) if r.evolver == "hill-climber" and r.run_index == 0
+        )
+    task = make("maze-hard-v3", **record.task_settings)
+    label = f"hill-climber, run 0 ({record.status})"
+    assert out.read_bytes() == png(
+        task.scene(from_dict(record.best_network), record.behaviours, label)
+    )
+    assert main([*argv, "--evolver", "neat"]) == 2
+    assert "no configuration matches 'neat'" in capsys.readouterr().err
 
 
 def test_replay_of_a_user_maze_run_by_its_file(tmp_path, capsys):
@@ -161,7 +189,7 @@ def test_the_run_shown_is_the_first_solved_else_the_fittest():
 
 def test_the_report_picture_is_the_representative_runs_and_other_tasks_have_none(tmp_path, capsys):
     store = tmp_path / "runs.db"
-    run_campaign(capsys, "maze-hard-v2", store)
+    run_campaign(capsys, "maze-hard-v3", store)
     run_campaign(capsys, "xor-v2", store)
     page = tmp_path / "report.html"
     assert main(["report", "--store", str(store), "--format", "html", "-o", str(page)]) == 0
@@ -169,9 +197,9 @@ def test_the_report_picture_is_the_representative_runs_and_other_tasks_have_none
     pictures = re.findall(r'<img src="data:image/png;base64,([^"]+)" alt="where the evaluations '
                           r'of a run ended and its best network&#39;s path, ([^"]+)">',
                           source)  # fmt: skip
-    assert [task for _, task in pictures] == ["maze-hard-v2"]  # none for xor-v2
+    assert [task for _, task in pictures] == ["maze-hard-v3"]  # none for xor-v2
     with ResultStore(store, write=False) as s:
-        runs = [r for r in s.records(with_log=False) if r.task == "maze-hard-v2"]
+        runs = [r for r in s.records(with_log=False) if r.task == "maze-hard-v3"]
     expected = run_picture({"rwg": runs})
     assert expected is not None
     assert base64.b64decode(pictures[0][0]) == expected[0]

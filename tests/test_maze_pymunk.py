@@ -81,7 +81,7 @@ def random_network(rng: np.random.Generator) -> Network:
     return Network(tuple(nodes), tuple(links), "feedforward")
 
 
-@pytest.mark.parametrize("task_id", ["maze-medium-v1", "maze-hard-v2", "maze-gen-v3"])
+@pytest.mark.parametrize("task_id", ["maze-medium-v1", "maze-hard-v3", "maze-gen-v3"])
 def test_episodes_never_enter_a_wall_by_pymunk(task_id):
     """Every position of an episode keeps the robot's disc clear of every wall (pymunk
     point queries), and a step either moves at most the top speed or stays put."""

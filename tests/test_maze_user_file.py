@@ -32,7 +32,7 @@ def run_file_campaign(capsys, maze: str, store: str) -> int:
 
 def test_maze_form_names_the_file_task():
     assert parse_task("maze:some/where.toml") == ("maze-file-v1", {"file": "some/where.toml"})
-    assert parse_task("maze-hard-v2") == ("maze-hard-v2", {})
+    assert parse_task("maze-hard-v3") == ("maze-hard-v3", {})
     with pytest.raises(TaskError, match="nothing after 'maze:'"):
         parse_task("maze:")
 
@@ -49,13 +49,13 @@ def test_a_user_maze_runs_and_its_runs_carry_the_content_hash(tmp_path, capsys):
         assert r.task == "maze-file-v1"
         assert r.task_settings["file"] == str(maze) and len(r.task_settings["sha256"]) == 64
         # the same maze as the shipped hard one: the same deception figures
-        assert r.task_facts == make("maze-hard-v2").spec.facts
+        assert r.task_facts == make("maze-hard-v3").spec.facts
 
     run_file_campaign(capsys, str(maze), store)  # unchanged file: nothing runs again
     with ResultStore(store, write=False) as s:
         assert len(list(s.records(with_log=False))) == 2
 
-    maze.write_text(maze.read_text().replace("to = [160.0, 150.0]", "to = [150.0, 150.0]"))
+    maze.write_text(maze.read_text().replace("to = [160.0, 160.0]", "to = [150.0, 160.0]"))
     with pytest.raises(TaskError, match="content changed since the runs were planned"):
         make("maze-file-v1", **records[0].task_settings)
     run_file_campaign(capsys, str(maze), store)  # another maze: new runs, old ones kept

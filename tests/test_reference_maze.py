@@ -17,16 +17,16 @@ def test_the_papers_success_counts_out_of_40():
     assert solved("maze-medium-v1", "novelty search") == [40]
     assert solved("maze-medium-v1", "objective NEAT") == [40]
     assert solved("maze-medium-v1", "random selection") == [21]
-    assert solved("maze-hard-v2", "novelty search") == [39]
-    assert solved("maze-hard-v2", "objective NEAT") == [3, 4]  # both are in the paper
-    assert solved("maze-hard-v2", "random selection") == [4]
+    assert solved("maze-hard-v3", "novelty search") == [39]
+    assert solved("maze-hard-v3", "objective NEAT") == [3, 4]  # both are in the paper
+    assert solved("maze-hard-v3", "random selection") == [4]
 
 
 def test_the_papers_mean_evaluations():
     # Lehman & Stanley 2011, sec. 6
     (medium_novelty,) = figures_for("maze-medium-v1", "novelty search")
     (medium_objective,) = figures_for("maze-medium-v1", "objective NEAT")
-    (hard_novelty,) = figures_for("maze-hard-v2", "novelty search")
+    (hard_novelty,) = figures_for("maze-hard-v3", "novelty search")
     assert medium_novelty.values["mean_evaluations"] == 18274
     assert medium_novelty.values["sd_evaluations"] == 20447
     assert medium_objective.values["mean_evaluations"] == 56334
@@ -36,7 +36,7 @@ def test_the_papers_mean_evaluations():
 
 
 def test_every_maze_figure_is_the_phenomenon_only_and_never_gates():
-    figures = figures_for("maze-medium-v1") + figures_for("maze-hard-v2")
+    figures = figures_for("maze-medium-v1") + figures_for("maze-hard-v3")
     assert len(figures) == 7
     for f in figures:
         assert f.not_comparable == PHENOMENON_ONLY and not f.may_gate
@@ -50,7 +50,7 @@ def test_a_figure_is_shown_beside_its_own_method_only():
     """The report puts a novelty-search figure beside novelty-search runs and an objective
     NEAT figure beside objective runs, never crosswise (method_keys)."""
     novelty, objective = {"selection": "novelty"}, {"selection": "fitness"}
-    for f in figures_for("maze-hard-v2"):
+    for f in figures_for("maze-hard-v3"):
         own = f.protocol["evolver.selection"]
         assert f.other_method({}, novelty) is (own != "novelty")
         assert f.other_method({}, objective) is (own != "fitness")

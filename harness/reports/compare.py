@@ -344,7 +344,7 @@ def select(
         if group[0].evolver == name and group[0].config_hash.startswith(prefix)
     ]
     if len(matches) != 1:
-        what = "no configuration" if not matches else f"{len(matches)} configurations"
+        what = "no configuration matches" if not matches else f"{len(matches)} configurations match"
         hint = "" if not matches else "; add @HASH to choose one"
-        raise NeuroyardError(f"{where}: {what} matches {selector!r} (there: {known}){hint}")
+        raise NeuroyardError(f"{where}: {what} {selector!r} (there: {known}){hint}")
     return matches[0], found[matches[0]]

@@ -3,7 +3,7 @@
 Importing this package registers, in Gymnasium's registry, one environment per
 registered pole task (:class:`.pole_env.PoleEnv`) and maze task (:class:`.maze_env.MazeEnv`)
 under the id ``neuroyard/<task id>`` (:func:`gym_id`: ``neuroyard/pole2-markov-v1``,
-``neuroyard/maze-hard-v2``; Gymnasium reads namespace ``neuroyard``, the name and the
+``neuroyard/maze-hard-v3``; Gymnasium reads namespace ``neuroyard``, the name and the
 version from it, so a new version of a task is a new version of its environment). Retired
 task ids have none. Gymnasium 1.x has no entry-point group that loads third-party
 environments, so the import is the registration::

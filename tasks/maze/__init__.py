@@ -1,6 +1,6 @@
 """Maze navigation (Lehman & Stanley 2011 robot, mazes of ours).
 
-Importing this package registers ``maze-open-v1``, ``maze-medium-v1`` and ``maze-hard-v2``.
+Importing this package registers ``maze-open-v1``, ``maze-medium-v1`` and ``maze-hard-v3``.
 """
 
 from .mazefile import Maze, load_maze, parse_maze

@@ -4,7 +4,7 @@
 |-----------------|----------------------|-------------------------------------------------------|
 | maze-open-v1    | mazes/open.toml      | an arena without inner walls (sanity)                 |
 | maze-medium-v1  | mazes/medium.toml    | two staggered walls: an S-shaped route                |
-| maze-hard-v2    | mazes/hard.toml      | the straight route ends in a closed pocket            |
+| maze-hard-v3    | mazes/hard.toml      | the straight route ends in a closed pocket            |
 | maze-file-v1    | setting ``file``     | a maze file of the user's (``--task maze:PATH``)      |
 | maze-gen-v3     | generated            | a maze from ``size``, ``seed`` and ``deception``      |
 
@@ -255,12 +255,13 @@ class MediumMaze(ShippedMaze):
 
 @register
 class HardMaze(ShippedMaze):
-    id = "maze-hard-v2"
+    id = "maze-hard-v3"
     maze_file = "hard"
     description = (
-        "deceptive: the straight route to the goal ends at a long wall closing the start's "
-        "pocket; the way round leaves the pocket at its bottom and leads away from the goal "
-        "until its last stretch"
+        "deceptive: the straight route to the goal ends under a long wall in the start's "
+        "pocket, 18 units from the goal through the wall; the way round leaves the pocket "
+        "at its bottom and runs round a ring of corridors, past a dead-end room, away from "
+        "the goal until its last stretch"
     )
 
 
@@ -268,8 +269,15 @@ retire(
     "maze-hard-v1",
     HardMaze.id,
     "version 1 was not deceptive enough: its pocket opened at the top, and objective NEAT "
-    "solved 8 of the 8 study runs it made (results/maze/README.md); version 2 closes the "
-    "pocket at the top",
+    "solved 8 of the 8 study runs it made (results/maze/README.md); version 3 closes the "
+    "pocket at the top and puts the goal right over it",
+)
+retire(
+    "maze-hard-v2",
+    HardMaze.id,
+    "version 2 was not deceptive enough: objective NEAT solved 18 of its 20 study runs, "
+    "escaping by one steady loop through the open room (results/maze/README.md); version 3 "
+    "puts the goal 18 units from the trap and the way round in a ring of corridors",
 )
 
 

@@ -2,7 +2,7 @@
 
     pytest -m bench --benchmark-enable tests/bench/test_bench_maze.py
 
-Targets: full 400-step episodes on maze-hard-v2 through the task's batch path
+Targets: full 400-step episodes on maze-hard-v3 through the task's batch path
 (``MazeTask.evaluate_batch`` on a compiled population) >= 2,000 evaluations per second on
 one core, and >= 30x a plain-Python loop that steps the same robot with pymunk doing the
 geometry (tests/bench/maze_pymunk_robot.py), measured side by side in one run on the
@@ -37,7 +37,7 @@ from neuroyard.tasks.maze.robot import N_INPUTS, RADIUS, run_batch
 
 pytestmark = pytest.mark.bench
 
-TASK = "maze-hard-v2"
+TASK = "maze-hard-v3"
 EVALUATIONS_PER_SECOND_TARGET = 2_000.0  # issue 17
 RATIO_TARGET = 30.0  # issue 17
 # The maze experiment's population size, App. A, Table 1 (reference/SOURCES.md: lehman2011),

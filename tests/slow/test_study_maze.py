@@ -43,7 +43,7 @@ WORKERS = 2
 RUNS = 20
 BUDGET = 250_000  # lehman2011, sec. 6 (maze protocol)
 SELECTIONS = ("novelty", "fitness", "random")
-TASKS = {"medium": "maze-medium-v1", "hard": "maze-hard-v2"}
+TASKS = {"medium": "maze-medium-v1", "hard": "maze-hard-v3"}
 
 
 def run_maze(maze: str, selections: tuple[str, ...]) -> dict[str, list[RunRecord]]:
