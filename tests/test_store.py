@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import multiprocessing
 import signal
 import sqlite3
 import subprocess
@@ -198,3 +199,29 @@ def test_a_run_stored_by_two_coordinators_is_kept_once(tmp_path):
         assert store.save(key, 1, record) is False
         assert store.db.execute("SELECT count(*) FROM runs").fetchone() == (1,)
         assert store.db.execute("SELECT count(*) FROM generations").fetchone() == (len(record.log),)
+
+
+def _open_when_told(path: str, go, results) -> None:
+    go.wait()
+    try:
+        with ResultStore(path) as store:
+            results.put(store.version)
+    except StoreError as exc:
+        results.put(str(exc))
+
+
+def test_processes_creating_one_new_store_at_once_all_open_it(tmp_path):
+    """Two coordinators started together on a new store: each opens it, none fails on the
+    other's half-made schema (once seen as 'not a neuroyard store (UNIQUE constraint ...)')."""
+    context = multiprocessing.get_context("fork")
+    for attempt in range(10):
+        path = str(tmp_path / f"new{attempt}.db")
+        go, results = context.Event(), context.Queue()
+        procs = [context.Process(target=_open_when_told, args=(path, go, results))
+                 for _ in range(4)]  # fmt: skip
+        for p in procs:
+            p.start()
+        go.set()
+        for p in procs:
+            p.join(60)
+        assert [results.get(timeout=5) for _ in procs] == [SCHEMA_VERSION] * 4

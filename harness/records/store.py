@@ -267,21 +267,34 @@ class ResultStore:
         finally:
             self.db.rollback()
 
-    def _check_schema(self) -> None:
-        tables = {
-            r[0] for r in self.db.execute("SELECT name FROM sqlite_master WHERE type='table'")
-        }
-        if not tables:
-            if not self.writable:
-                raise StoreError(f"results store {self.path}: empty file, no results")
-            with self.db:
-                self.db.executescript(_SCHEMA)
+    def _tables(self) -> set[str]:
+        return {r[0] for r in self.db.execute("SELECT name FROM sqlite_master WHERE type='table'")}
+
+    def _create_schema(self) -> None:
+        """Create the tables in one write transaction, unless another process got there
+        first: two coordinators may open a new store at the same moment."""
+        self.db.execute("BEGIN IMMEDIATE")
+        try:
+            if not self._tables():
+                for statement in _SCHEMA.split(";"):
+                    if statement.strip():
+                        self.db.execute(statement)
                 self.db.execute(
                     "INSERT INTO meta(key, value) VALUES ('schema_version', ?)",
                     (str(SCHEMA_VERSION),),
                 )
-            self.version = SCHEMA_VERSION
-            return
+            self.db.commit()
+        except BaseException:
+            self.db.rollback()
+            raise
+
+    def _check_schema(self) -> None:
+        tables = self._tables()
+        if not tables:
+            if not self.writable:
+                raise StoreError(f"results store {self.path}: empty file, no results")
+            self._create_schema()
+            tables = self._tables()
         if "meta" not in tables:
             raise StoreError(f"results store {self.path}: a SQLite file, but not a neuroyard store")
         row = self.db.execute("SELECT value FROM meta WHERE key='schema_version'").fetchone()
