@@ -106,15 +106,11 @@ def summary_document(task: str, seed: int, sides: dict[str, list[RunRecord]]) ->
     novelty, objective = sides.get("novelty"), sides.get("fitness")
     if novelty and objective:
         test = mann_whitney(*(censored(rs) for rs in (novelty, objective)))
-        rates = fisher_test(*(x for rs in (novelty, objective) for x in solved_of(rs)))
+        n, o = (doc["sides"][name]["summary"] for name in ("novelty", "fitness"))
+        rates = fisher_test(n["solved"], n["runs"], o["solved"], o["runs"])
         doc["novelty_vs_objective"] = {"test": test.test, "p": test.p_value, "A12": test.effect}
         doc["success_rates"] = {"test": rates.test, "p": rates.p_value}
     return doc
-
-
-def solved_of(records: list[RunRecord]) -> tuple[int, int]:
-    """(solved runs, runs)."""
-    return sum(r.solved for r in records), len(records)
 
 
 def censored(records: list[RunRecord]) -> list[float]:
@@ -139,11 +135,10 @@ def test_study_hard_maze_replication() -> None:
     Of the thresholds, this campaign met objective NEAT's (7/20) and missed novelty
     search's (16/20), and the README says so."""
     sides = run_maze("hard", ("fitness", "novelty"), seed=REPLICATION_SEED)
-    novelty, objective = sides["novelty"], sides["fitness"]
-    assert len(novelty) == len(objective) == RUNS
-    (n_solved, n_runs), (o_solved, o_runs) = solved_of(novelty), solved_of(objective)
-    assert n_solved > o_solved
-    rates = fisher_test(n_solved, n_runs, o_solved, o_runs)
+    novelty, objective = summary_of(sides["novelty"]), summary_of(sides["fitness"])
+    assert novelty.runs == objective.runs == RUNS
+    assert novelty.solved > objective.solved
+    rates = fisher_test(novelty.solved, novelty.runs, objective.solved, objective.runs)
     assert rates.p_value is not None and rates.p_value < 0.05, rates
 
 
