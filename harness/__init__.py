@@ -1,6 +1,4 @@
-"""neuroyard harness: ``core`` (network format, kernels, evolver contract) at the bottom of
-the house; ``records``, ``execution``, ``reports`` and ``cli`` above the tasks and the
-reference evolvers (see DEVELOPERS.md, Layers)."""
+"""neuroyard: benchmark tasks and an honest validation harness for neuroevolution."""
 
 from importlib.metadata import PackageNotFoundError, version
 

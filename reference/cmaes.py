@@ -31,11 +31,11 @@ from typing import Any
 import cma
 import numpy as np
 
-from neuroyard.harness.core.activations import NAMES
-from neuroyard.harness.core.errors import NeuroyardError, SettingError
-from neuroyard.harness.core.evolver import Evaluation, Problem
-from neuroyard.harness.core.network import Network, check, loads
-from neuroyard.harness.core.options import Option, OptionTable
+from neuroyard.core.activations import NAMES
+from neuroyard.core.errors import NeuroyardError, SettingError
+from neuroyard.core.evolver import Evaluation, Problem
+from neuroyard.core.network import Network, check, loads
+from neuroyard.core.options import Option, OptionTable
 
 from .weight_template import WeightTemplate, from_network, layered
 

@@ -6,7 +6,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from functools import cached_property
 
-from neuroyard.harness.core.network import Network, fully_connected, layered_links
+from neuroyard.core.network import Network, fully_connected, layered_links
 
 
 @dataclass(frozen=True)

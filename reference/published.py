@@ -39,7 +39,7 @@ from functools import cache
 from importlib import resources
 from typing import Any
 
-from neuroyard.harness.core.errors import NeuroyardError
+from neuroyard.core.errors import NeuroyardError
 
 # Provenance tags (reference/SOURCES.md: provenance tags); only the first group may gate
 # a pass/fail check.

@@ -14,10 +14,10 @@ from typing import Any
 
 import numpy as np
 
-from neuroyard.harness.core.activations import NAMES
-from neuroyard.harness.core.evolver import Evaluation, Problem
-from neuroyard.harness.core.network import Network
-from neuroyard.harness.core.options import Option, OptionTable
+from neuroyard.core.activations import NAMES
+from neuroyard.core.evolver import Evaluation, Problem
+from neuroyard.core.network import Network
+from neuroyard.core.options import Option, OptionTable
 
 from .fixed_topology import FixedTopology
 

@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from neuroyard.harness.core.network import Connection, Mode, Network, Node, validate
+from neuroyard.core.network import Connection, Mode, Network, Node, validate
 
 
 @dataclass(frozen=True)

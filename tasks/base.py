@@ -1,7 +1,7 @@
 """The task contract.
 
 A task has a versioned id (``name-vN``: any change to dynamics, scaling or criteria bumps
-N), settings declared as :class:`~neuroyard.harness.core.options.Option` (default, range,
+N), settings declared as :class:`~neuroyard.core.options.Option` (default, range,
 unit, source; every run records all of them), and a spec record.
 The harness calls:
 
@@ -25,12 +25,12 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, BinaryIO, ClassVar
 
-from neuroyard.harness.core.batch import CompiledBatch, compile_batch
-from neuroyard.harness.core.compiled import CompiledNetwork
-from neuroyard.harness.core.errors import TaskError
-from neuroyard.harness.core.evolver import Evaluation, Problem
-from neuroyard.harness.core.network import Network, fully_connected
-from neuroyard.harness.core.options import Option, OptionTable
+from neuroyard.core.batch import CompiledBatch, compile_batch
+from neuroyard.core.compiled import CompiledNetwork
+from neuroyard.core.errors import TaskError
+from neuroyard.core.evolver import Evaluation, Problem
+from neuroyard.core.network import Network, fully_connected
+from neuroyard.core.options import Option, OptionTable
 
 
 @dataclass(frozen=True)
@@ -131,7 +131,7 @@ class Task(ABC):
     def evaluate_batch(self, batch: CompiledBatch) -> list[Evaluation]:
         """Evaluate every network of a batch, in order; each is one counted evaluation.
 
-        Override with a kernel that loops over :func:`~neuroyard.harness.batch.member`
+        Override with a kernel that loops over :func:`~neuroyard.batch.member`
         when one evaluation is so cheap that a Python call per network would dominate."""
         return [self.evaluate(batch.network(i)) for i in range(batch.size)]
 

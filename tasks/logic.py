@@ -25,10 +25,10 @@ from typing import Any
 import numba
 import numpy as np
 
-from neuroyard.harness.core.batch import CompiledBatch, member
-from neuroyard.harness.core.compiled import CompiledNetwork, new_state, reset, step
-from neuroyard.harness.core.evolver import Evaluation
-from neuroyard.harness.core.options import Option
+from neuroyard.core.batch import CompiledBatch, member
+from neuroyard.core.compiled import CompiledNetwork, new_state, reset, step
+from neuroyard.core.evolver import Evaluation
+from neuroyard.core.options import Option
 
 from .base import SuccessCheck, Task, TaskSpec
 from .registry import register, retire

@@ -12,7 +12,7 @@ from collections.abc import Mapping
 from importlib.metadata import entry_points
 from typing import Any
 
-from neuroyard.harness.core.errors import TaskError
+from neuroyard.core.errors import TaskError
 
 from .base import Metric, Task, TaskSpec
 

@@ -16,7 +16,7 @@ import threading
 import time
 from collections.abc import Sequence
 
-from neuroyard.harness.core.network import Connection, Network, Node
+from neuroyard.core.network import Connection, Network, Node
 
 FAULT_GENERATION = 2
 BATCH = 5

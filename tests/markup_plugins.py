@@ -8,7 +8,7 @@ Not part of the package; the test puts this folder on sys.path, loads the evolve
 
 from __future__ import annotations
 
-from neuroyard.harness.core.options import Option
+from neuroyard.core.options import Option
 from neuroyard.reference.hill_climber import HillClimber
 from neuroyard.tasks.logic import Xor
 

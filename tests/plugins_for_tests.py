@@ -8,8 +8,8 @@ from __future__ import annotations
 
 import time
 
-from neuroyard.harness.core.network import Connection, Network, Node
-from neuroyard.harness.core.options import Option, OptionTable
+from neuroyard.core.network import Connection, Network, Node
+from neuroyard.core.options import Option, OptionTable
 from neuroyard.reference.neat import NeatEvolver
 
 

@@ -7,11 +7,11 @@ import dataclasses
 import numpy as np
 import pytest
 
-from neuroyard.harness.core.batch import compile_batch
-from neuroyard.harness.core.compiled import fingerprint, run_sequence
-from neuroyard.harness.core.errors import NetworkError
-from neuroyard.harness.core.network import Connection, Network, Node, check
-from neuroyard.harness.core.reference_activation import ReferenceNet
+from neuroyard.core.batch import compile_batch
+from neuroyard.core.compiled import fingerprint, run_sequence
+from neuroyard.core.errors import NetworkError
+from neuroyard.core.network import Connection, Network, Node, check
+from neuroyard.core.reference_activation import ReferenceNet
 from neuroyard.tasks import make
 from neuroyard.tasks.logic import Xor
 

@@ -5,10 +5,10 @@ from __future__ import annotations
 from hypothesis import given
 from hypothesis import strategies as st
 
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import plan_run
-from neuroyard.harness.execution.runner import run_one
-from neuroyard.harness.records.runs import BehaviourSample
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import plan_run
+from neuroyard.execution.runner import run_one
+from neuroyard.records.runs import BehaviourSample
 
 
 @given(st.integers(1, 64), st.integers(0, 3000))

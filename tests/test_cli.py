@@ -8,8 +8,8 @@ import sys
 
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core.network import Connection, Network, Node, dumps
+from neuroyard.cli.main import main
+from neuroyard.core.network import Connection, Network, Node, dumps
 
 REPORT_KEYS = {
     "evolver",
@@ -216,7 +216,7 @@ def test_invalid_network_file_error_names_the_offender(tmp_path, capsys):
 
 def test_console_script_entry_point_runs(tmp_path):
     out = subprocess.run(
-        [sys.executable, "-m", "neuroyard.harness.cli.main", "tasks"],
+        [sys.executable, "-m", "neuroyard.cli.main", "tasks"],
         capture_output=True,
         text=True,
         check=True,

@@ -18,16 +18,16 @@ import math
 import numpy as np
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.compiled import run_sequence
-from neuroyard.harness.core.errors import EvolverError, NetworkError, SettingError
-from neuroyard.harness.core.evolver import Evaluation
-from neuroyard.harness.core.evolver_registry import EvolverSpec, load_factory
-from neuroyard.harness.core.network import from_dict, to_dict
-from neuroyard.harness.execution.campaign import plan_run
-from neuroyard.harness.execution.runner import run_one
-from neuroyard.harness.records.store import ResultStore
+from neuroyard.cli.main import main
+from neuroyard.core.batch import compile_network
+from neuroyard.core.compiled import run_sequence
+from neuroyard.core.errors import EvolverError, NetworkError, SettingError
+from neuroyard.core.evolver import Evaluation
+from neuroyard.core.evolver_registry import EvolverSpec, load_factory
+from neuroyard.core.network import from_dict, to_dict
+from neuroyard.execution.campaign import plan_run
+from neuroyard.execution.runner import run_one
+from neuroyard.records.store import ResultStore
 from neuroyard.reference.cmaes import CmaEs
 from neuroyard.reference.weight_template import from_network, layered
 from neuroyard.tasks import make

@@ -19,11 +19,11 @@ from pathlib import Path
 
 import pytest
 
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice
-from neuroyard.harness.records.runs import RunRecord
-from neuroyard.harness.records.store import SCHEMA_VERSION, ResultStore
-from neuroyard.harness.reports import renderers, report
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice
+from neuroyard.records.runs import RunRecord
+from neuroyard.records.store import SCHEMA_VERSION, ResultStore
+from neuroyard.reports import renderers, report
 
 RESULTS = Path(__file__).resolve().parents[1] / "results"
 # store -> (summary JSON, the key of its figures there)

@@ -13,13 +13,13 @@ import json
 
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.supervisor import Supervisor
-from neuroyard.harness.records.store import ResultStore
-from neuroyard.harness.reports.compare import compare, configurations
-from neuroyard.harness.reports.comparison_renderers import comparison_text
+from neuroyard.cli.main import main
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.execution.supervisor import Supervisor
+from neuroyard.records.store import ResultStore
+from neuroyard.reports.compare import compare, configurations
+from neuroyard.reports.comparison_renderers import comparison_text
 
 RUNS, BUDGET = 12, 12_000
 

@@ -22,11 +22,11 @@ from pathlib import Path
 
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.reports import report
+from neuroyard.cli.main import main
+from neuroyard.reports import report
 from neuroyard.tasks.logic import Xor
 
-NEUROYARD = [sys.executable, "-m", "neuroyard.harness.cli.main"]
+NEUROYARD = [sys.executable, "-m", "neuroyard.cli.main"]
 
 
 def strict(text: str):
@@ -245,7 +245,7 @@ def test_every_json_output_parses_strictly(tmp_path, capsys):
 def test_a_full_disk_before_the_campaign_is_one_line_and_status_2(tmp_path, monkeypatch, capsys):
     import shutil
 
-    from neuroyard.harness.records import store as store_module
+    from neuroyard.records import store as store_module
 
     usage = shutil.disk_usage(tmp_path)
     monkeypatch.setattr(store_module.shutil, "disk_usage", lambda path: usage._replace(free=4096))
@@ -260,10 +260,10 @@ def test_a_full_disk_before_the_campaign_is_one_line_and_status_2(tmp_path, monk
 
 def test_a_disk_that_fills_during_the_campaign_keeps_the_stored_runs(tmp_path):
     # SQLite's page limit gives the same error as a full disk (SQLITE_FULL)
-    from neuroyard.harness.core.errors import StoreError
-    from neuroyard.harness.core.evolver_registry import EvolverSpec
-    from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-    from neuroyard.harness.records.store import ResultStore
+    from neuroyard.core.errors import StoreError
+    from neuroyard.core.evolver_registry import EvolverSpec
+    from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+    from neuroyard.records.store import ResultStore
 
     plan = CampaignPlan([EvolverSpec("rwg", {"batch_size": 10})], [TaskChoice("xor-v2")], 40,
                         1, 200)  # fmt: skip

@@ -21,15 +21,15 @@ from pathlib import Path
 import distributed
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute, plan_run
-from neuroyard.harness.execution.dask_executor import DaskExecutor, local_cluster
-from neuroyard.harness.execution.executors import make_executor
-from neuroyard.harness.execution.runner import run_one
-from neuroyard.harness.execution.supervisor import Limits
-from neuroyard.harness.records.runs import FAILED
-from neuroyard.harness.records.store import ResultStore
+from neuroyard.cli.main import main
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute, plan_run
+from neuroyard.execution.dask_executor import DaskExecutor, local_cluster
+from neuroyard.execution.executors import make_executor
+from neuroyard.execution.runner import run_one
+from neuroyard.execution.supervisor import Limits
+from neuroyard.records.runs import FAILED
+from neuroyard.records.store import ResultStore
 
 HERE = Path(__file__).parent
 README = HERE.parent / "README.md"

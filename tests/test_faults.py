@@ -18,12 +18,12 @@ from pathlib import Path
 
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.runner import run_one
-from neuroyard.harness.execution.supervisor import Limits, Supervisor
-from neuroyard.harness.records.store import ResultStore
+from neuroyard.cli.main import main
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.execution.runner import run_one
+from neuroyard.execution.supervisor import Limits, Supervisor
+from neuroyard.records.store import ResultStore
 
 HERE = Path(__file__).parent
 TIME_LIMIT, MEMORY_LIMIT = 1.0, 300

@@ -19,11 +19,11 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from neuroyard import tasks
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core.activations import NAMES
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.network import Connection, Network, Node, dumps
-from neuroyard.harness.execution.runner import RunFault, bound_fitness
+from neuroyard.cli.main import main
+from neuroyard.core.activations import NAMES
+from neuroyard.core.batch import compile_network
+from neuroyard.core.network import Connection, Network, Node, dumps
+from neuroyard.execution.runner import RunFault, bound_fitness
 from neuroyard.tasks.maze import shipped_maze
 
 HUGE = 1e300
@@ -91,7 +91,7 @@ def test_fitness_is_finite_and_within_the_stated_bounds(task_id):
 
 
 def test_a_fitness_outside_the_bounds_is_a_fault_of_the_task():
-    from neuroyard.harness.core.evolver import Evaluation
+    from neuroyard.core.evolver import Evaluation
 
     with pytest.raises(RunFault, match=r"candidate 1 of generation 4 the fitness 17.0, outside"):
         bound_fitness([Evaluation(3.0), Evaluation(17.0)], "xor-v2", 0.0, 16.0, 4)

@@ -8,7 +8,7 @@ index give the same run, so an unchanged evolver reproduces success, evaluations
 exactly and only its speed varies.
 Outside references: XOR needs a hidden node, which a network without one cannot compute
 (reference/SOURCES.md: minsky1969), so NEAT that cannot add a node never solves it; the
-tests themselves are scipy's (through neuroyard.harness.reports.significance).
+tests themselves are scipy's (through neuroyard.reports.significance).
 """
 
 from __future__ import annotations
@@ -22,15 +22,15 @@ from pathlib import Path
 
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution import calibration
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.executors import make_executor
-from neuroyard.harness.records.runs import RunRecord
-from neuroyard.harness.records.store import ResultStore
-from neuroyard.harness.reports import gate
-from neuroyard.harness.reports.gate import GroupRuns, RunFigures, Thresholds
+from neuroyard.cli.main import main
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution import calibration
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.execution.executors import make_executor
+from neuroyard.records.runs import RunRecord
+from neuroyard.records.store import ResultStore
+from neuroyard.reports import gate
+from neuroyard.reports.gate import GroupRuns, RunFigures, Thresholds
 
 HERE = Path(__file__).parent
 COMMITTED_OLD = HERE.parent / "results" / "pole" / "spv.sqlite"  # written before calibration
@@ -429,8 +429,8 @@ def test_the_plugin_fails_on_a_bad_baseline_with_one_line(pytester):
 
 def test_the_plugin_loads_nothing_heavy():
     code = (
-        "import sys, neuroyard.harness.cli.pytest_plugin\n"
-        "print([m for m in ('numpy', 'numba', 'scipy', 'neuroyard.harness.cli.gate') "
+        "import sys, neuroyard.cli.pytest_plugin\n"
+        "print([m for m in ('numpy', 'numba', 'scipy', 'neuroyard.cli.gate') "
         "if m in sys.modules])"
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)

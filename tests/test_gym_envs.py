@@ -20,10 +20,10 @@ import pytest
 from gymnasium.utils.env_checker import check_env
 
 import neuroyard.tasks.gym_envs as gym_envs
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.compiled import new_state, step
-from neuroyard.harness.core.errors import TaskError
-from neuroyard.harness.core.network import Connection, Network, Node
+from neuroyard.core.batch import compile_network
+from neuroyard.core.compiled import new_state, step
+from neuroyard.core.errors import TaskError
+from neuroyard.core.network import Connection, Network, Node
 from neuroyard.tasks.maze import MazeTask, shipped_maze
 from neuroyard.tasks.pole import PoleBalancing, balance, simulate
 from neuroyard.tasks.pole.controllers import difference_network, lqr_gains, state_feedback_network

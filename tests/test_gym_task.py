@@ -18,11 +18,11 @@ import numpy as np
 import pytest
 from gymnasium.envs.classic_control.cartpole import CartPoleEnv
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core.batch import compile_batch, compile_network
-from neuroyard.harness.core.errors import TaskError
-from neuroyard.harness.core.network import Connection, Network, Node, fully_connected
-from neuroyard.harness.records.store import ResultStore
+from neuroyard.cli.main import main
+from neuroyard.core.batch import compile_batch, compile_network
+from neuroyard.core.errors import TaskError
+from neuroyard.core.network import Connection, Network, Node, fully_connected
+from neuroyard.records.store import ResultStore
 from neuroyard.reference.published import figures_for
 from neuroyard.tasks import make
 from neuroyard.tasks.gym_task import interface as io

@@ -31,9 +31,9 @@ import numpy as np
 import pytest
 from scipy.stats import ecdf
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.records.runs import GenerationLog, RunRecord
-from neuroyard.harness.reports import plots
+from neuroyard.cli.main import main
+from neuroyard.records.runs import GenerationLog, RunRecord
+from neuroyard.reports import plots
 from neuroyard.tasks import registry
 
 HERE = Path(__file__).parent
@@ -214,7 +214,7 @@ def test_the_other_formats_do_not_load_matplotlib(tmp_path):
     shutil.copyfile(RESULTS / "neat_xor" / "xor.db", store)
     code = (
         "import sys\n"
-        "from neuroyard.harness.cli.main import main\n"
+        "from neuroyard.cli.main import main\n"
         f"assert main(['report', '--store', {str(store)!r}, '-o', {str(tmp_path / 'r')!r}]) == 0\n"
         "assert 'matplotlib' not in sys.modules, 'matplotlib was loaded'\n"
     )

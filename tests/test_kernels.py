@@ -1,7 +1,7 @@
 """Compiled numba kernels against the plain-Python reference activation.
 
 The reference (:class:`ReferenceNet`) is written from the node formula and mode rules in
-the docstring of :mod:`neuroyard.harness.core.network`; the kernels must agree with it to 1e-12
+the docstring of :mod:`neuroyard.core.network`; the kernels must agree with it to 1e-12
 on random valid networks, and both must show the documented step timing.
 """
 
@@ -14,11 +14,11 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from neuroyard.harness.core.activations import NAMES
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.compiled import run_sequence
-from neuroyard.harness.core.network import Connection, Network, Node, validate
-from neuroyard.harness.core.reference_activation import ReferenceNet
+from neuroyard.core.activations import NAMES
+from neuroyard.core.batch import compile_network
+from neuroyard.core.compiled import run_sequence
+from neuroyard.core.network import Connection, Network, Node, validate
+from neuroyard.core.reference_activation import ReferenceNet
 
 TOLERANCE = 1e-12  # absolute and relative; issue 2 item 3
 SETTINGS = settings(

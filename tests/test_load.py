@@ -13,13 +13,13 @@ import sqlite3
 import distributed
 import pytest
 
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.dask_executor import DaskExecutor, local_cluster
-from neuroyard.harness.execution.executors import make_executor
-from neuroyard.harness.execution.supervisor import Limits
-from neuroyard.harness.records.runs import RunRecord
-from neuroyard.harness.records.store import ResultStore
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.execution.dask_executor import DaskExecutor, local_cluster
+from neuroyard.execution.executors import make_executor
+from neuroyard.execution.supervisor import Limits
+from neuroyard.records.runs import RunRecord
+from neuroyard.records.store import ResultStore
 
 RUNS = 1000
 PLAN = CampaignPlan([EvolverSpec("rwg", {"batch_size": 10})], [TaskChoice("xor-v2")], RUNS, 2, 10)

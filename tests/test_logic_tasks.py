@@ -16,10 +16,10 @@ import pytest
 import scipy.special
 
 from neuroyard import tasks
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.errors import TaskError
-from neuroyard.harness.core.network import Connection, Network, Node, fully_connected, validate
-from neuroyard.harness.core.reference_activation import ReferenceNet
+from neuroyard.core.batch import compile_network
+from neuroyard.core.errors import TaskError
+from neuroyard.core.network import Connection, Network, Node, fully_connected, validate
+from neuroyard.core.reference_activation import ReferenceNet
 
 XOR_TABLE = {(0, 0): 0, (0, 1): 1, (1, 0): 1, (1, 1): 0}  # exclusive or
 

@@ -7,7 +7,7 @@ import math
 
 import pytest
 
-from neuroyard.harness.core.errors import TaskError
+from neuroyard.core.errors import TaskError
 from neuroyard.tasks.maze import load_maze, parse_maze, shipped_maze
 from neuroyard.tasks.maze.robot import RADIUS
 

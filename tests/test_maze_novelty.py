@@ -5,9 +5,9 @@ the method's strength: the deceptive mazes are the slow studies' job)."""
 
 from __future__ import annotations
 
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import plan_run
-from neuroyard.harness.execution.runner import run_one
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import plan_run
+from neuroyard.execution.runner import run_one
 
 
 def test_novelty_search_solves_the_open_arena_in_three_short_runs() -> None:

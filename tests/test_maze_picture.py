@@ -13,12 +13,12 @@ import matplotlib.image
 import numpy as np
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.network import Connection, Network, Node, dumps, from_dict
-from neuroyard.harness.records.runs import RunRecord
-from neuroyard.harness.records.store import ResultStore
-from neuroyard.harness.reports.run_picture import representative, run_picture
+from neuroyard.cli.main import main
+from neuroyard.core.batch import compile_network
+from neuroyard.core.network import Connection, Network, Node, dumps, from_dict
+from neuroyard.records.runs import RunRecord
+from neuroyard.records.store import ResultStore
+from neuroyard.reports.run_picture import representative, run_picture
 from neuroyard.tasks import make
 from neuroyard.tasks.maze import shipped_maze
 from neuroyard.tasks.maze.picture import DPI, HEIGHT_INCHES, WIDTH_INCHES, figure, png

@@ -18,8 +18,8 @@ import pytest
 from maze_pymunk_robot import radar, rangefinders, wall_space
 
 from neuroyard import tasks
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.network import Connection, Network, Node
+from neuroyard.core.batch import compile_network
+from neuroyard.core.network import Connection, Network, Node
 from neuroyard.tasks.maze import load_maze, sense, shipped_maze
 from neuroyard.tasks.maze.robot import MAX_SPEED, RADIUS, RANGE, blocked
 

@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 
 from neuroyard import tasks
-from neuroyard.harness.core.batch import compile_batch, compile_network
-from neuroyard.harness.core.network import Connection, Network, Node
+from neuroyard.core.batch import compile_batch, compile_network
+from neuroyard.core.network import Connection, Network, Node
 from neuroyard.tasks.maze import sense
 from neuroyard.tasks.maze.robot import MAX_SPEED, RADIUS
 

@@ -7,9 +7,9 @@ import json
 
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core.errors import TaskError
-from neuroyard.harness.records.store import ResultStore
+from neuroyard.cli.main import main
+from neuroyard.core.errors import TaskError
+from neuroyard.records.store import ResultStore
 from neuroyard.tasks import make
 from neuroyard.tasks.maze import shipped_maze
 from neuroyard.tasks.registry import parse_task

@@ -14,14 +14,14 @@ import sqlite3
 
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core import jsonsafe
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice
-from neuroyard.harness.records import store as store_module
-from neuroyard.harness.records.runs import MACHINE_FIELDS, content_digest
-from neuroyard.harness.records.shares import WHOLE, Share
-from neuroyard.harness.records.store import ResultStore
+from neuroyard.cli.main import main
+from neuroyard.core import jsonsafe
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice
+from neuroyard.records import store as store_module
+from neuroyard.records.runs import MACHINE_FIELDS, content_digest
+from neuroyard.records.shares import WHOLE, Share
+from neuroyard.records.store import ResultStore
 
 # 2 evolvers x 2 tasks x 3 runs, small budgets, in this process: a second or two in all
 CAMPAIGN = [

@@ -11,8 +11,8 @@ import dataclasses
 
 import pytest
 
-from neuroyard.harness.core.errors import EvolverError
-from neuroyard.harness.core.evolver_registry import EvolverSpec, load_factory
+from neuroyard.core.errors import EvolverError
+from neuroyard.core.evolver_registry import EvolverSpec, load_factory
 from neuroyard.reference.neat import NeatConfig, NeatEvolver, make_config, option_table
 
 

@@ -10,9 +10,9 @@ from __future__ import annotations
 
 import pytest
 
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.evolver import Evaluation
-from neuroyard.harness.core.network import validate
+from neuroyard.core.batch import compile_network
+from neuroyard.core.evolver import Evaluation
+from neuroyard.core.network import validate
 from neuroyard.reference.neat import NeatEvolver
 from neuroyard.tasks import make
 

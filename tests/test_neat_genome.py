@@ -16,7 +16,7 @@ import random
 
 import pytest
 
-from neuroyard.harness.core.network import validate
+from neuroyard.core.network import validate
 from neuroyard.reference.neat import make_config
 from neuroyard.reference.neat.decode import Decoder
 from neuroyard.reference.neat.genome import (

@@ -13,12 +13,12 @@ import math
 import numpy as np
 import pytest
 
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.compiled import run_sequence
-from neuroyard.harness.core.errors import SettingError
-from neuroyard.harness.core.evolver import Evaluation, Problem
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.core.network import Network
+from neuroyard.core.batch import compile_network
+from neuroyard.core.compiled import run_sequence
+from neuroyard.core.errors import SettingError
+from neuroyard.core.evolver import Evaluation, Problem
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.core.network import Network
 from neuroyard.reference.neat import NeatEvolver, NoveltyNeat
 from neuroyard.reference.neat.novelty import NoveltyArchive, sparseness
 from neuroyard.tasks import make

@@ -8,10 +8,10 @@ from __future__ import annotations
 
 import pytest
 
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.core.network import from_dict
-from neuroyard.harness.execution.campaign import plan_run
-from neuroyard.harness.execution.runner import run_one
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.core.network import from_dict
+from neuroyard.execution.campaign import plan_run
+from neuroyard.execution.runner import run_one
 
 BUDGET = 30_000  # issue 3 acceptance: 10 fixed-seed runs solved within 30,000 evaluations
 

@@ -11,9 +11,9 @@ import numpy as np
 import pytest
 import scipy.special
 
-from neuroyard.harness.core.activations import CODES, NAMES, apply, reference
-from neuroyard.harness.core.errors import NetworkError
-from neuroyard.harness.core.network import (
+from neuroyard.core.activations import CODES, NAMES, apply, reference
+from neuroyard.core.errors import NetworkError
+from neuroyard.core.network import (
     MODES,
     NODE_KINDS,
     Connection,

@@ -11,8 +11,8 @@ from __future__ import annotations
 import gymnasium as gym
 import numpy as np
 
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.network import fully_connected
+from neuroyard.core.batch import compile_network
+from neuroyard.core.network import fully_connected
 from neuroyard.tasks.pole import failed, simulate
 from neuroyard.tasks.registry import make
 

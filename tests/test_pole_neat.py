@@ -6,9 +6,9 @@ tests/slow/test_study_pole.py; there NEAT needed 435 evaluations on average.
 
 from __future__ import annotations
 
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import plan_run
-from neuroyard.harness.execution.runner import run_one
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import plan_run
+from neuroyard.execution.runner import run_one
 
 SHORT_BUDGET = 10_000  # evaluations per run
 

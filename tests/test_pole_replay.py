@@ -6,11 +6,11 @@ import json
 
 import numpy as np
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.core.network import dumps, fully_connected
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.records.store import ResultStore
+from neuroyard.cli.main import main
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.core.network import dumps, fully_connected
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.records.store import ResultStore
 from neuroyard.tasks.pole.controllers import lqr_gains, state_feedback_network
 from neuroyard.tasks.pole.replay import trace
 from neuroyard.tasks.registry import make

@@ -10,11 +10,11 @@ from importlib import resources
 import numpy as np
 import pytest
 
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.errors import TaskError
-from neuroyard.harness.core.evolver import Evaluation
-from neuroyard.harness.core.network import Connection, Network, Node, fully_connected, validate
-from neuroyard.harness.core.reference_activation import ReferenceNet
+from neuroyard.core.batch import compile_network
+from neuroyard.core.errors import TaskError
+from neuroyard.core.evolver import Evaluation
+from neuroyard.core.network import Connection, Network, Node, fully_connected, validate
+from neuroyard.core.reference_activation import ReferenceNet
 from neuroyard.reference.published import figures_for
 from neuroyard.tasks.pole import balance, count_balanced, generalization_starts, simulate
 from neuroyard.tasks.pole.controllers import difference_network, lqr_gains, state_feedback_network

@@ -26,17 +26,17 @@ import jsonschema
 import numpy as np
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core import protocol
-from neuroyard.harness.core.errors import EvolverError, ProcessEvolverError
-from neuroyard.harness.core.evolver import Evaluation, Outcome, Problem
-from neuroyard.harness.core.evolver_registry import EvolverSpec, load_factory
-from neuroyard.harness.core.process_evolver import ProcessEvolver
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute, plan_run
-from neuroyard.harness.execution.runner import run_one
-from neuroyard.harness.execution.supervisor import Supervisor
-from neuroyard.harness.records.runs import run_key
-from neuroyard.harness.records.store import ResultStore
+from neuroyard.cli.main import main
+from neuroyard.core import protocol
+from neuroyard.core.errors import EvolverError, ProcessEvolverError
+from neuroyard.core.evolver import Evaluation, Outcome, Problem
+from neuroyard.core.evolver_registry import EvolverSpec, load_factory
+from neuroyard.core.process_evolver import ProcessEvolver
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute, plan_run
+from neuroyard.execution.runner import run_one
+from neuroyard.execution.supervisor import Supervisor
+from neuroyard.records.runs import run_key
+from neuroyard.records.store import ResultStore
 from neuroyard.reference.other_languages import ES_C, ES_JS
 
 HERE = Path(__file__).parent

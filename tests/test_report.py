@@ -10,16 +10,16 @@ import pytest
 from scipy.stats import binomtest, ttest_ind
 from scipy.stats import t as student_t
 
-from neuroyard.harness.records.runs import RunRecord
-from neuroyard.harness.reports import renderers, report
-from neuroyard.harness.reports.stats import (
+from neuroyard.records.runs import RunRecord
+from neuroyard.reference.published import figures_for
+from neuroyard.reports import renderers, report
+from neuroyard.reports.stats import (
     expected_running_time,
     fisher_p_value,
     summarize,
     welch_p_value,
     wilson_interval,
 )
-from neuroyard.reference.published import figures_for
 
 
 def record(i: int, solved: bool, evaluations: int, population: int = 150, **extra) -> RunRecord:

@@ -15,11 +15,11 @@ from pathlib import Path
 
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.records.store import ResultStore
-from neuroyard.harness.reports import renderers, report
-from neuroyard.harness.reports.document import NO_SOLVED_ERT
+from neuroyard.cli.main import main
+from neuroyard.records.store import ResultStore
 from neuroyard.reference.published import figures_for
+from neuroyard.reports import renderers, report
+from neuroyard.reports.document import NO_SOLVED_ERT
 
 HERE = Path(__file__).parent
 RESULTS = HERE.parent / "results"

@@ -6,10 +6,10 @@ from pathlib import Path
 
 import pytest
 
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution import seeds
-from neuroyard.harness.execution.campaign import plan_run
-from neuroyard.harness.execution.runner import load_kernels, run_one
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution import seeds
+from neuroyard.execution.campaign import plan_run
+from neuroyard.execution.runner import load_kernels, run_one
 from neuroyard.tasks import make
 from neuroyard.tasks.base import SuccessCheck
 from neuroyard.tasks.logic import Xor

@@ -15,15 +15,15 @@ from pathlib import Path
 
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core.errors import SettingError
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.core.options import Option, OptionTable, distribute
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute, plan_run
-from neuroyard.harness.execution.executors import make_executor
-from neuroyard.harness.execution.runner import run_one
-from neuroyard.harness.records.store import ResultStore
-from neuroyard.harness.reports import renderers, report
+from neuroyard.cli.main import main
+from neuroyard.core.errors import SettingError
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.core.options import Option, OptionTable, distribute
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute, plan_run
+from neuroyard.execution.executors import make_executor
+from neuroyard.execution.runner import run_one
+from neuroyard.records.store import ResultStore
+from neuroyard.reports import renderers, report
 from neuroyard.tasks import base, make
 
 RESULTS = Path(__file__).resolve().parents[1] / "results"
@@ -205,7 +205,7 @@ class _Recording:
         self.queue.append(spec)
 
     def collect(self, timeout: float) -> list:
-        from neuroyard.harness.execution.supervisor import Finished
+        from neuroyard.execution.supervisor import Finished
 
         done, self.queue = self.queue, []
         return [Finished(spec, run_one(spec)) for spec in done]

@@ -7,7 +7,7 @@ import math
 
 import pytest
 
-from neuroyard.harness.reports.significance import (
+from neuroyard.reports.significance import (
     a12,
     censored_evaluations,
     fisher_test,
@@ -16,7 +16,7 @@ from neuroyard.harness.reports.significance import (
     runs_needed_mann_whitney,
     runs_needed_proportions,
 )
-from neuroyard.harness.reports.stats import ert_interval, expected_running_time, quartiles
+from neuroyard.reports.stats import ert_interval, expected_running_time, quartiles
 
 
 def test_quartiles_by_hand() -> None:

@@ -11,11 +11,11 @@ import time
 
 import pytest
 
-from neuroyard.harness.core.errors import StoreError
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.supervisor import Supervisor
-from neuroyard.harness.records.store import SCHEMA_VERSION, ResultStore
+from neuroyard.core.errors import StoreError
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.execution.supervisor import Supervisor
+from neuroyard.records.store import SCHEMA_VERSION, ResultStore
 
 
 def plan(runs=4, seed=3):
@@ -51,7 +51,7 @@ def test_store_left_by_a_killed_process_keeps_every_finished_run(tmp_path):
     cmd = [
         sys.executable,
         "-m",
-        "neuroyard.harness.cli.main",
+        "neuroyard.cli.main",
         "run",
         "--evolver",
         "rwg",
@@ -167,7 +167,7 @@ def test_a_failed_upgrade_leaves_the_older_store_as_it_was(tmp_path, monkeypatch
 
 
 def test_claims_are_exclusive_expire_and_die_with_their_owner(tmp_path, monkeypatch):
-    from neuroyard.harness.records import store as store_module
+    from neuroyard.records import store as store_module
 
     with ResultStore(tmp_path / "c.db") as store:
         keys = ["k1", "k2", "k3"]

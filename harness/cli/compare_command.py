@@ -1,4 +1,4 @@
-"""``neuroyard compare``: two configurations side by side (:mod:`neuroyard.harness.reports.compare`)."""
+"""``neuroyard compare``: two configurations side by side (:mod:`neuroyard.reports.compare`)."""
 
 from __future__ import annotations
 
@@ -6,10 +6,10 @@ import argparse
 from pathlib import Path
 from typing import Any
 
-from neuroyard.harness.cli.output import check_output, write_output
-from neuroyard.harness.core.errors import NeuroyardError
-from neuroyard.harness.records.store import DEFAULT_PATH, ResultStore
-from neuroyard.harness.reports import compare, renderers
+from neuroyard.cli.output import check_output, write_output
+from neuroyard.core.errors import NeuroyardError
+from neuroyard.records.store import DEFAULT_PATH, ResultStore
+from neuroyard.reports import compare, renderers
 
 
 def add_parser(sub: Any, level: Any) -> None:

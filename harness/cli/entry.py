@@ -11,7 +11,7 @@ import sys
 
 def main() -> int:
     try:
-        from neuroyard.harness.cli.main import main as run_command_line
+        from neuroyard.cli.main import main as run_command_line
     except KeyboardInterrupt:
         print("neuroyard: interrupted", file=sys.stderr)
         return 130

@@ -6,7 +6,7 @@ configuration, task and settings, budget, campaign seed, runs) the figures of ea
 and the environment they were written in. ``check --baseline FILE`` makes the same runs
 again (same evolvers, configurations, tasks, settings, budget, seeds and run indices) into
 a temporary store on the pool executor, or reads them from ``--store PATH``, and compares
-them with the baseline (:mod:`neuroyard.harness.reports.gate`: tests, thresholds and
+them with the baseline (:mod:`neuroyard.reports.gate`: tests, thresholds and
 verdicts). Exit status of ``check``: 0 nothing regressed, 1 a regression (one line each),
 2 bad input (one line naming the file and what is wrong).
 
@@ -17,7 +17,7 @@ change may alter, as the code is), and when it does the check says so. Should th
 hold that group under several configurations, the one given as the baseline's is taken; if
 none of them is, the store is ambiguous (exit 2).
 
-**The baseline file** (format version 1, ours): strict JSON (:mod:`~neuroyard.harness.core.
+**The baseline file** (format version 1, ours): strict JSON (:mod:`~neuroyard.core.
 jsonsafe`) with sorted keys, indented by two spaces so that a change reads well in a diff::
 
     {"format": "neuroyard regression baseline", "format_version": 1,
@@ -51,16 +51,16 @@ import scipy
 from jsonschema import Draft202012Validator
 from jsonschema.exceptions import best_match
 
-from neuroyard.harness.core import jsonsafe
-from neuroyard.harness.core.errors import NeuroyardError
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution import provenance
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.executors import make_executor
-from neuroyard.harness.records.runs import FAILED, SOLVED, UNSOLVED, RunRecord, record_key
-from neuroyard.harness.records.store import DEFAULT_PATH, ResultStore
-from neuroyard.harness.reports import gate
-from neuroyard.harness.reports.gate import (
+from neuroyard.core import jsonsafe
+from neuroyard.core.errors import NeuroyardError
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution import provenance
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.execution.executors import make_executor
+from neuroyard.records.runs import FAILED, SOLVED, UNSOLVED, RunRecord, record_key
+from neuroyard.records.store import DEFAULT_PATH, ResultStore
+from neuroyard.reports import gate
+from neuroyard.reports.gate import (
     ALPHA,
     DEFAULT_THRESHOLDS,
     Finding,
@@ -183,7 +183,7 @@ class BaselineGroup:
 
 @dataclass(frozen=True)
 class CheckResult:
-    """What a check found: every finding (:class:`~neuroyard.harness.reports.gate.Finding`)
+    """What a check found: every finding (:class:`~neuroyard.reports.gate.Finding`)
     and notes on how the fresh runs differ from the baseline's beyond the figures."""
 
     findings: list[Finding]

@@ -1,6 +1,6 @@
 """``neuroyard tasks`` and ``neuroyard evolvers``: what is installed, and each one's options.
 
-Both list from the one declaration of each option (:mod:`neuroyard.harness.core.options`):
+Both list from the one declaration of each option (:mod:`neuroyard.core.options`):
 name, default, type and allowed values, unit, meaning and the source of the default.
 """
 
@@ -11,10 +11,10 @@ import inspect
 from dataclasses import asdict
 from typing import Any
 
-from neuroyard.harness.core import jsonsafe
-from neuroyard.harness.core.errors import SettingError
-from neuroyard.harness.core.evolver_registry import available, load_factory, option_table
-from neuroyard.harness.core.options import OptionTable
+from neuroyard.core import jsonsafe
+from neuroyard.core.errors import SettingError
+from neuroyard.core.evolver_registry import available, load_factory, option_table
+from neuroyard.core.options import OptionTable
 from neuroyard.tasks import TaskSpec, retired, specs
 from neuroyard.tasks.registry import forms, make, needing, parse_task, task_class
 

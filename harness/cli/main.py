@@ -18,33 +18,33 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any, NoReturn
 
-from neuroyard.harness.cli import compare_command, gate, listing, merge_command, replay
-from neuroyard.harness.cli.output import check_output, write_output
-from neuroyard.harness.core import jsonsafe
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.errors import NeuroyardError
-from neuroyard.harness.core.evolver import MAX_BATCH
-from neuroyard.harness.core.evolver_registry import (
+from neuroyard.cli import compare_command, gate, listing, merge_command, replay
+from neuroyard.cli.output import check_output, write_output
+from neuroyard.core import jsonsafe
+from neuroyard.core.batch import compile_network
+from neuroyard.core.errors import NeuroyardError
+from neuroyard.core.evolver import MAX_BATCH
+from neuroyard.core.evolver_registry import (
     EvolverSpec,
     load_factory,
     option_table,
     read_config,
 )
-from neuroyard.harness.core.network import validate
-from neuroyard.harness.core.options import distribute
-from neuroyard.harness.execution import crashlog
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.executors import Executor, make_executor
-from neuroyard.harness.execution.runner import RunFault, bound_fitness
-from neuroyard.harness.execution.supervisor import (
+from neuroyard.core.network import validate
+from neuroyard.core.options import distribute
+from neuroyard.execution import crashlog
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.execution.executors import Executor, make_executor
+from neuroyard.execution.runner import RunFault, bound_fitness
+from neuroyard.execution.supervisor import (
     DEFAULT_MEMORY_LIMIT_MB,
     DEFAULT_TIME_LIMIT,
     Limits,
 )
-from neuroyard.harness.records.runs import record_key
-from neuroyard.harness.records.shares import WHOLE, Share
-from neuroyard.harness.records.store import DEFAULT_PATH, ResultStore
-from neuroyard.harness.reports import renderers, report
+from neuroyard.records.runs import record_key
+from neuroyard.records.shares import WHOLE, Share
+from neuroyard.records.store import DEFAULT_PATH, ResultStore
+from neuroyard.reports import renderers, report
 from neuroyard.tasks import make
 from neuroyard.tasks.registry import parse_task, task_class
 

@@ -1,5 +1,5 @@
 """``neuroyard merge``: the stores of a campaign's shares (batch jobs) into one store
-(:mod:`neuroyard.harness.records.merge`)."""
+(:mod:`neuroyard.records.merge`)."""
 
 from __future__ import annotations
 
@@ -7,7 +7,7 @@ import argparse
 from pathlib import Path
 from typing import Any
 
-from neuroyard.harness.records.merge import merge
+from neuroyard.records.merge import merge
 
 
 def add_parser(sub: Any) -> None:

@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from pathlib import Path
 
-from neuroyard.harness.core.errors import NeuroyardError
+from neuroyard.core.errors import NeuroyardError
 
 
 def check_output(output: Path | None, stores: Sequence[Path]) -> None:

@@ -32,8 +32,8 @@ def assert_no_regression(request: pytest.FixtureRequest) -> Callable[..., Any]:
     """The check of a baseline, as a function of ``baseline`` (path) and ``workers``."""
 
     def check(baseline: str | Path, workers: int = 1) -> Any:
-        from neuroyard.harness.cli import gate  # loaded on use, see the module docstring
-        from neuroyard.harness.core.errors import NeuroyardError
+        from neuroyard.cli import gate  # loaded on use, see the module docstring
+        from neuroyard.core.errors import NeuroyardError
 
         path = Path(baseline)
         if not path.is_absolute():

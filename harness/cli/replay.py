@@ -14,11 +14,11 @@ import argparse
 from pathlib import Path
 from typing import Any
 
-from neuroyard.harness.core.errors import NeuroyardError
-from neuroyard.harness.core.network import Network, from_dict, loads
-from neuroyard.harness.records.runs import RunRecord
-from neuroyard.harness.records.store import ResultStore
-from neuroyard.harness.reports.compare import configurations, select
+from neuroyard.core.errors import NeuroyardError
+from neuroyard.core.network import Network, from_dict, loads
+from neuroyard.records.runs import RunRecord
+from neuroyard.records.store import ResultStore
+from neuroyard.reports.compare import configurations, select
 from neuroyard.tasks import make
 from neuroyard.tasks.registry import parse_task
 

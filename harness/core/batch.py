@@ -19,10 +19,10 @@ from typing import NamedTuple
 import numba
 import numpy as np
 
-from neuroyard.harness.core.activations import CODES
-from neuroyard.harness.core.compiled import CompiledNetwork
-from neuroyard.harness.core.errors import NetworkError
-from neuroyard.harness.core.network import Connection, Network, Node, check
+from neuroyard.core.activations import CODES
+from neuroyard.core.compiled import CompiledNetwork
+from neuroyard.core.errors import NetworkError
+from neuroyard.core.network import Connection, Network, Node, check
 
 _KIND = {"input": 0, "bias": 1, "hidden": 2, "output": 3}
 _MODE = {"feedforward": 0, "recurrent": 1}

@@ -22,7 +22,7 @@ from typing import NamedTuple
 import numba
 import numpy as np
 
-from neuroyard.harness.core.activations import apply
+from neuroyard.core.activations import apply
 
 
 class CompiledNetwork(NamedTuple):

@@ -31,7 +31,7 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any, Protocol, runtime_checkable
 
-from neuroyard.harness.core.network import Network
+from neuroyard.core.network import Network
 
 MAX_BATCH = 10_000  # networks per ask() unless a campaign allows more (a guard rail, ours)
 

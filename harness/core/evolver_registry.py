@@ -21,11 +21,11 @@ from importlib.metadata import entry_points
 from pathlib import Path
 from typing import Any
 
-from neuroyard.harness.core.errors import EvolverError, SettingError
-from neuroyard.harness.core.evolver import Evolver
-from neuroyard.harness.core.options import OptionTable
-from neuroyard.harness.core.process_evolver import PREFIX as PROCESS_PREFIX
-from neuroyard.harness.core.process_evolver import command_factory
+from neuroyard.core.errors import EvolverError, SettingError
+from neuroyard.core.evolver import Evolver
+from neuroyard.core.options import OptionTable
+from neuroyard.core.process_evolver import PREFIX as PROCESS_PREFIX
+from neuroyard.core.process_evolver import command_factory
 
 ENTRY_POINT_GROUP = "neuroyard.evolvers"
 

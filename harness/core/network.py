@@ -11,7 +11,7 @@ and bias nodes carry no computation (their activation is ``identity``, bias 0, g
 
     y_i = f_i( gain_i * ( bias_i + sum over enabled connections j->i of weight_ji * y_j ) )
 
-where f_i is the node's activation (see :mod:`neuroyard.harness.core.activations`).
+where f_i is the node's activation (see :mod:`neuroyard.core.activations`).
 
 **Modes.** ``feedforward``: the enabled connections form no cycle; each step the inputs are
 set and every node is computed once in topological order, so outputs respond to this
@@ -33,8 +33,8 @@ from dataclasses import dataclass, field
 from importlib import resources
 from typing import Any, Literal, NoReturn
 
-from neuroyard.harness.core.activations import CODES
-from neuroyard.harness.core.errors import NetworkError
+from neuroyard.core.activations import CODES
+from neuroyard.core.errors import NetworkError
 
 NodeKind = Literal["input", "bias", "hidden", "output"]
 Mode = Literal["feedforward", "recurrent"]

@@ -31,7 +31,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from neuroyard.harness.core.errors import SettingError
+from neuroyard.core.errors import SettingError
 
 
 def matches_default(default: Any, value: Any) -> bool:

@@ -27,8 +27,8 @@ import weakref
 from collections.abc import Callable, Sequence
 from typing import Any, NoReturn
 
-from neuroyard.harness.core import jsonsafe, protocol
-from neuroyard.harness.core.child_process import (
+from neuroyard.core import jsonsafe, protocol
+from neuroyard.core.child_process import (
     EXIT_WAIT,
     MAX_LINE_BYTES,
     ChildGone,
@@ -37,9 +37,9 @@ from neuroyard.harness.core.child_process import (
     LineTooLong,
     exit_words,
 )
-from neuroyard.harness.core.errors import EvolverError, ProcessEvolverError
-from neuroyard.harness.core.evolver import Evaluation, Outcome, Problem
-from neuroyard.harness.core.network import Network
+from neuroyard.core.errors import EvolverError, ProcessEvolverError
+from neuroyard.core.evolver import Evaluation, Outcome, Problem
+from neuroyard.core.network import Network
 
 PREFIX = "process:"
 # s to wait for one reply (ours: far above a generation of the examples, a few ms, and well

@@ -59,11 +59,11 @@ import numpy as np
 import orjson
 import referencing
 
-from neuroyard.harness.core import jsonsafe
-from neuroyard.harness.core import network as network_format
-from neuroyard.harness.core.batch import compile_batch
-from neuroyard.harness.core.errors import NetworkError, ProcessEvolverError
-from neuroyard.harness.core.evolver import Evaluation, Outcome, Problem
+from neuroyard.core import jsonsafe
+from neuroyard.core import network as network_format
+from neuroyard.core.batch import compile_batch
+from neuroyard.core.errors import NetworkError, ProcessEvolverError
+from neuroyard.core.evolver import Evaluation, Outcome, Problem
 
 VERSION = 1
 SCHEMA_FILE = "protocol.schema.json"

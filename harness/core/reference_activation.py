@@ -8,8 +8,8 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
-from neuroyard.harness.core.activations import CODES, reference
-from neuroyard.harness.core.network import Network, topological_order
+from neuroyard.core.activations import CODES, reference
+from neuroyard.core.network import Network, topological_order
 
 
 class ReferenceNet:

@@ -7,7 +7,7 @@ Runs execute on an executor (:mod:`.executors`: supervised worker processes, or 
 process for debugging); either way only this coordinator process writes to the store,
 one transaction per finished run. Several coordinators may run the same campaign on one
 store at once: they claim runs before starting them and so split the work. A batch job
-may run only a share of the plan (:mod:`~neuroyard.harness.records.shares`) into a store
+may run only a share of the plan (:mod:`~neuroyard.records.shares`) into a store
 of its own; ``neuroyard merge`` combines the shares' stores afterwards.
 """
 
@@ -27,13 +27,13 @@ from typing import Any, NamedTuple
 
 from tqdm import tqdm
 
-from neuroyard.harness.core.errors import StoreError
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution import crashlog
-from neuroyard.harness.execution.executors import Executor, make_executor
-from neuroyard.harness.records.runs import RunRecord, RunSpec
-from neuroyard.harness.records.shares import WHOLE, Share
-from neuroyard.harness.records.store import ResultStore, owner_id
+from neuroyard.core.errors import StoreError
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution import crashlog
+from neuroyard.execution.executors import Executor, make_executor
+from neuroyard.records.runs import RunRecord, RunSpec
+from neuroyard.records.shares import WHOLE, Share
+from neuroyard.records.store import ResultStore, owner_id
 from neuroyard.tasks import make
 
 WAIT_FOR_OTHERS = 1.0  # s between looks at runs that other coordinators are running

@@ -15,7 +15,7 @@ import tempfile
 import time
 from pathlib import Path
 
-from neuroyard.harness import __version__
+from neuroyard import __version__
 
 _COUNTER = itertools.count()
 

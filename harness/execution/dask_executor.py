@@ -34,9 +34,9 @@ from typing import Any
 import dask
 import distributed
 
-from neuroyard.harness.core.errors import NeuroyardError
-from neuroyard.harness.execution.supervisor import START_METHOD, Finished, Limits, Supervisor
-from neuroyard.harness.records.runs import RunSpec
+from neuroyard.core.errors import NeuroyardError
+from neuroyard.execution.supervisor import START_METHOD, Finished, Limits, Supervisor
+from neuroyard.records.runs import RunSpec
 
 CONNECT_TIMEOUT = 10.0  # s to reach a scheduler before giving up (ours)
 # Dask settings for the workers local_cluster starts: not daemonic (see the module

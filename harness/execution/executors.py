@@ -3,7 +3,7 @@
 A campaign (:func:`~.campaign.execute`) hands runs to an executor and collects them; it
 never knows where they run. An executor has room for ``capacity`` runs at once (read each
 time the campaign hands out runs, so a cluster may grow), takes a
-:class:`~neuroyard.harness.records.runs.RunSpec` with ``submit``, gives back the runs that
+:class:`~neuroyard.records.runs.RunSpec` with ``submit``, gives back the runs that
 are over with ``collect`` (waiting at most ``timeout`` seconds for one) as
 :class:`~.supervisor.Finished` items, and ends everything it started with ``close``.
 An executor never writes the store: the campaign's coordinator does.
@@ -21,9 +21,9 @@ from collections.abc import Callable
 from importlib.metadata import entry_points
 from typing import Any, Protocol
 
-from neuroyard.harness.core.errors import NeuroyardError
-from neuroyard.harness.execution.supervisor import Finished, InProcess, Limits, Supervisor
-from neuroyard.harness.records.runs import RunSpec
+from neuroyard.core.errors import NeuroyardError
+from neuroyard.execution.supervisor import Finished, InProcess, Limits, Supervisor
+from neuroyard.records.runs import RunSpec
 
 ENTRY_POINT_GROUP = "neuroyard.executors"
 

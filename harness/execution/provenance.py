@@ -11,7 +11,7 @@ from pathlib import Path
 import numba
 import numpy
 
-from neuroyard.harness import __version__
+from neuroyard import __version__
 
 
 @cache

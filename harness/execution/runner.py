@@ -38,15 +38,15 @@ import time
 from collections.abc import Mapping, Sequence
 from typing import Any, Protocol
 
-from neuroyard.harness.core import jsonsafe
-from neuroyard.harness.core.batch import CompiledBatch, compile_batch
-from neuroyard.harness.core.compiled import fingerprint
-from neuroyard.harness.core.errors import NetworkError, ProcessEvolverError
-from neuroyard.harness.core.evolver import MAX_BATCH, Evaluation, Outcome
-from neuroyard.harness.core.network import Network, to_dict
-from neuroyard.harness.execution import calibration, provenance
-from neuroyard.harness.execution.seeds import evolver_seed, task_seed
-from neuroyard.harness.records.runs import (
+from neuroyard.core import jsonsafe
+from neuroyard.core.batch import CompiledBatch, compile_batch
+from neuroyard.core.compiled import fingerprint
+from neuroyard.core.errors import NetworkError, ProcessEvolverError
+from neuroyard.core.evolver import MAX_BATCH, Evaluation, Outcome
+from neuroyard.core.network import Network, to_dict
+from neuroyard.execution import calibration, provenance
+from neuroyard.execution.seeds import evolver_seed, task_seed
+from neuroyard.records.runs import (
     FAILED,
     SOLVED,
     UNSOLVED,

@@ -34,11 +34,11 @@ from dataclasses import dataclass
 from multiprocessing.connection import wait
 from typing import Any
 
-from neuroyard.harness.core.child_process import exit_words
-from neuroyard.harness.core.evolver import MAX_BATCH
-from neuroyard.harness.execution import worker
-from neuroyard.harness.execution.runner import call_label, new_record, run_one
-from neuroyard.harness.records.runs import FAILED, RunRecord, RunSpec
+from neuroyard.core.child_process import exit_words
+from neuroyard.core.evolver import MAX_BATCH
+from neuroyard.execution import worker
+from neuroyard.execution.runner import call_label, new_record, run_one
+from neuroyard.records.runs import FAILED, RunRecord, RunSpec
 
 POLL = 0.2  # s between checks of the running calls' time (ours)
 DEFAULT_TIME_LIMIT = 60.0  # s per evolver call (ours: far above any reference evolver's call)

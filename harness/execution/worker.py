@@ -23,7 +23,7 @@ import traceback
 from multiprocessing.connection import Connection
 from typing import Any
 
-from neuroyard.harness.execution.runner import run_one
+from neuroyard.execution.runner import run_one
 
 # Evolver calls a worker reports, by code (0: none, the harness's own code or idle).
 CALLS = (

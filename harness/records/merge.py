@@ -21,10 +21,10 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from neuroyard.harness.core.errors import StoreError
-from neuroyard.harness.records.runs import content_digest, record_key
-from neuroyard.harness.records.shares import Share
-from neuroyard.harness.records.store import (
+from neuroyard.core.errors import StoreError
+from neuroyard.records.runs import content_digest, record_key
+from neuroyard.records.shares import Share
+from neuroyard.records.store import (
     SCHEMA_VERSION,
     Campaign,
     ResultStore,

@@ -12,15 +12,15 @@ from collections.abc import Mapping
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
-from neuroyard.harness.core import jsonsafe
-from neuroyard.harness.core.evolver_registry import EvolverSpec
+from neuroyard.core import jsonsafe
+from neuroyard.core.evolver_registry import EvolverSpec
 
 SOLVED, UNSOLVED, FAILED = "solved", "unsolved", "failed"
 BEHAVIOUR_SAMPLE = 500  # most behaviour descriptors a run record keeps
 BEHAVIOUR_DECIMALS = 3  # decimals a kept descriptor is rounded to (a picture, not identity)
 # Fields of a record that depend on the machine and the moment, not on the run: seconds
 # (``timing``), the host name and the versions of Python, the libraries and the checkout
-# (``versions``, :mod:`neuroyard.harness.execution.provenance`).
+# (``versions``, :mod:`neuroyard.execution.provenance`).
 MACHINE_FIELDS = frozenset({"timing", "host", "versions"})
 
 
@@ -55,7 +55,7 @@ class RunSpec:
 
     Holds resolved values: ``budget`` is the effective budget (the task's default when none
     was asked for) and ``task_settings`` every setting of the task, defaults merged
-    (:func:`neuroyard.harness.execution.campaign.plan_run` resolves them)."""
+    (:func:`neuroyard.execution.campaign.plan_run` resolves them)."""
 
     evolver: EvolverSpec
     task: str

@@ -1,7 +1,7 @@
 """A share of a campaign: the runs one of several batch jobs makes, each into its own store.
 
 Share K of N (1-based) holds the runs at positions K-1, K-1+N, K-1+2N, ... of the plan's
-run list (:meth:`~neuroyard.harness.execution.campaign.CampaignPlan.expand`: evolver, task,
+run list (:meth:`~neuroyard.execution.campaign.CampaignPlan.expand`: evolver, task,
 run index), so the N shares together hold every run once, and each share takes about as
 many runs of every evolver and task as the others (ours). ``neuroyard merge`` combines the
 shares' stores afterwards.

@@ -54,11 +54,11 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Any
 
-from neuroyard.harness.core import jsonsafe
-from neuroyard.harness.core.errors import EvolverError, StoreError
-from neuroyard.harness.core.evolver_registry import EvolverSpec, canonical_config
-from neuroyard.harness.records.runs import GenerationLog, RunRecord, content_digest, record_key
-from neuroyard.harness.records.shares import WHOLE, Share
+from neuroyard.core import jsonsafe
+from neuroyard.core.errors import EvolverError, StoreError
+from neuroyard.core.evolver_registry import EvolverSpec, canonical_config
+from neuroyard.records.runs import GenerationLog, RunRecord, content_digest, record_key
+from neuroyard.records.shares import WHOLE, Share
 
 SCHEMA_VERSION = 6
 READABLE_VERSIONS = tuple(str(v) for v in range(1, SCHEMA_VERSION + 1))  # older ones upgrade

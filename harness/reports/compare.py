@@ -24,9 +24,9 @@ from collections.abc import Iterable, Sequence
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
-from neuroyard.harness.core.errors import NeuroyardError
-from neuroyard.harness.records.runs import RunRecord
-from neuroyard.harness.reports.significance import (
+from neuroyard.core.errors import NeuroyardError
+from neuroyard.records.runs import RunRecord
+from neuroyard.reports.significance import (
     TestResult,
     censored_evaluations,
     fisher_test,
@@ -35,7 +35,7 @@ from neuroyard.harness.reports.significance import (
     runs_needed_mann_whitney,
     runs_needed_proportions,
 )
-from neuroyard.harness.reports.stats import quartiles
+from neuroyard.reports.stats import quartiles
 from neuroyard.tasks import declared_metrics
 
 ALPHA = 0.05  # significance level of a comparison (common practice)

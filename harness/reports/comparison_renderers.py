@@ -10,9 +10,9 @@ import textwrap
 
 from tabulate import tabulate
 
-from neuroyard.harness.core import jsonsafe
-from neuroyard.harness.core.errors import TaskError
-from neuroyard.harness.reports.compare import Comparison, MetricRow
+from neuroyard.core import jsonsafe
+from neuroyard.core.errors import TaskError
+from neuroyard.reports.compare import Comparison, MetricRow
 from neuroyard.tasks.registry import task_class
 
 NOTES = (

@@ -20,7 +20,7 @@ from collections.abc import Hashable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
-from neuroyard.harness.reports.report import Comparison, ReportRow
+from neuroyard.reports.report import Comparison, ReportRow
 
 DASH = "—"  # a value that does not exist
 

@@ -43,15 +43,15 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
 
-from neuroyard.harness.records.runs import FAILED, SOLVED, RunRecord
-from neuroyard.harness.reports.significance import (
+from neuroyard.records.runs import FAILED, SOLVED, RunRecord
+from neuroyard.reports.significance import (
     TestResult,
     censored_evaluations,
     fisher_test,
     holm,
     mann_whitney,
 )
-from neuroyard.harness.reports.stats import quartiles
+from neuroyard.reports.stats import quartiles
 
 ALPHA = 0.05  # significance level after Holm's correction (ours: the common choice)
 _TOLERANCE = 1e-9  # a change equal to its threshold counts (18/20 - 1 is -0.0999...)

@@ -17,23 +17,23 @@ from dataclasses import dataclass
 
 from jinja2 import Environment, PackageLoader, StrictUndefined
 
-from neuroyard.harness.records.runs import RunRecord
-from neuroyard.harness.reports import plots
-from neuroyard.harness.reports.compare import Comparison
-from neuroyard.harness.reports.comparison_renderers import (
+from neuroyard.records.runs import RunRecord
+from neuroyard.reports import plots
+from neuroyard.reports.compare import Comparison
+from neuroyard.reports.comparison_renderers import (
     NOTES,
     effect_text,
     p_text,
     runs_text,
     settings_text,
 )
-from neuroyard.harness.reports.document import document
-from neuroyard.harness.reports.report import ReportRow
-from neuroyard.harness.reports.run_picture import run_picture
+from neuroyard.reports.document import document
+from neuroyard.reports.report import ReportRow
+from neuroyard.reports.run_picture import run_picture
 from neuroyard.tasks import Metric, declared_metrics
 
 _ENV = Environment(
-    loader=PackageLoader("neuroyard.harness.reports", "templates"),
+    loader=PackageLoader("neuroyard.reports", "templates"),
     autoescape=True,
     undefined=StrictUndefined,
 )

@@ -25,7 +25,7 @@ from typing import Any
 
 import numpy as np
 
-from neuroyard.harness.records.runs import RunRecord
+from neuroyard.records.runs import RunRecord
 from neuroyard.tasks import Metric
 
 DPI = 100

@@ -21,11 +21,11 @@ from typing import Any
 
 from tabulate import MIN_PADDING, tabulate
 
-from neuroyard.harness.core import jsonsafe
-from neuroyard.harness.core.errors import NeuroyardError
-from neuroyard.harness.reports import comparison_renderers, html
-from neuroyard.harness.reports.document import SettingsGroup, Table, document
-from neuroyard.harness.reports.report import ReportRow
+from neuroyard.core import jsonsafe
+from neuroyard.core.errors import NeuroyardError
+from neuroyard.reports import comparison_renderers, html
+from neuroyard.reports.document import SettingsGroup, Table, document
+from neuroyard.reports.report import ReportRow
 
 ENTRY_POINT_GROUPS = {
     "report": "neuroyard.renderers",

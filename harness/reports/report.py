@@ -23,15 +23,15 @@ from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
-from neuroyard.harness.records.runs import FAILED, RunRecord
-from neuroyard.harness.reports.stats import (
+from neuroyard.records.runs import FAILED, RunRecord
+from neuroyard.reference.published import figures_for
+from neuroyard.reports.stats import (
     GroupSummary,
     fisher_p_value,
     summarize,
     welch_not_run,
     welch_p_value,
 )
-from neuroyard.reference.published import figures_for
 from neuroyard.tasks import Metric, declared_metrics
 
 # Metrics that describe the experiment (sample size, population) rather than its outcome:

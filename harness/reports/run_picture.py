@@ -13,9 +13,9 @@ from __future__ import annotations
 import io
 from collections.abc import Mapping, Sequence
 
-from neuroyard.harness.core.errors import TaskError
-from neuroyard.harness.core.network import from_dict
-from neuroyard.harness.records.runs import BEHAVIOUR_SAMPLE, RunRecord
+from neuroyard.core.errors import TaskError
+from neuroyard.core.network import from_dict
+from neuroyard.records.runs import BEHAVIOUR_SAMPLE, RunRecord
 from neuroyard.tasks import make
 from neuroyard.tasks.registry import task_class
 

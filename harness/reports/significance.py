@@ -33,7 +33,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.stats import mannwhitneyu, norm
 
-from neuroyard.harness.reports.stats import fisher_p_value
+from neuroyard.reports.stats import fisher_p_value
 
 MIN_RUNS = 2  # fewer runs in a group than this: no test (ours: a rank test needs spread)
 

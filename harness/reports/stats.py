@@ -23,7 +23,7 @@ from typing import Any
 import numpy as np
 from scipy.stats import binomtest, bootstrap, fisher_exact, ttest_ind_from_stats
 
-from neuroyard.harness.records.runs import RunRecord
+from neuroyard.records.runs import RunRecord
 
 
 def wilson_interval(successes: int, trials: int, confidence: float = 0.95) -> tuple[float, float]:

@@ -16,7 +16,7 @@ from functools import cache
 from importlib import resources
 from typing import Any
 
-from neuroyard.harness.core.options import Option, OptionTable
+from neuroyard.core.options import Option, OptionTable
 
 
 @dataclass(frozen=True)

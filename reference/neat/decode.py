@@ -1,4 +1,4 @@
-"""Genome -> :class:`~neuroyard.harness.network.Network` (the harness's interchange format).
+"""Genome -> :class:`~neuroyard.network.Network` (the harness's interchange format).
 
 Node ids are the genome's node ids. Hidden and output nodes use the steepened sigmoid
 ``neat_sigmoid`` (paper sec. 4.1) with node bias 0: NEAT's bias is the bias input node.
@@ -8,7 +8,7 @@ number of each connection, in connection order.
 
 from __future__ import annotations
 
-from neuroyard.harness.core.network import Connection, Mode, Network, Node
+from neuroyard.core.network import Connection, Mode, Network, Node
 
 from .genome import Genome, Layout
 

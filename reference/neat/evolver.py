@@ -9,9 +9,9 @@ from typing import Any
 
 import numpy as np
 
-from neuroyard.harness.core.errors import SettingError
-from neuroyard.harness.core.evolver import Evaluation, Problem
-from neuroyard.harness.core.network import Network
+from neuroyard.core.errors import SettingError
+from neuroyard.core.evolver import Evaluation, Problem
+from neuroyard.core.network import Network
 
 from .config import NeatConfig, make_config, option_table
 from .decode import Decoder

@@ -10,7 +10,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from neuroyard.harness.core.process_evolver import ProcessEvolver
+from neuroyard.core.process_evolver import ProcessEvolver
 
 HERE = Path(__file__).parent
 ES_JS = HERE / "es.js"

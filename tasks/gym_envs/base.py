@@ -16,7 +16,7 @@ from typing import Any, ClassVar
 import gymnasium
 import numpy as np
 
-from neuroyard.harness.core.errors import TaskError
+from neuroyard.core.errors import TaskError
 
 from ..base import Task
 from ..registry import make

@@ -25,8 +25,8 @@ import gymnasium as gym
 import numpy as np
 from gymnasium.vector import AutoresetMode, SyncVectorEnv
 
-from neuroyard.harness.core.batch import CompiledBatch
-from neuroyard.harness.core.compiled import CompiledNetwork, new_state
+from neuroyard.core.batch import CompiledBatch
+from neuroyard.core.compiled import CompiledNetwork, new_state
 
 from .interface import Interface, box_action, box_actions, discrete_action, discrete_actions
 

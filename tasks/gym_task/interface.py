@@ -33,9 +33,9 @@ import numba
 import numpy as np
 from gymnasium import spaces
 
-from neuroyard.harness.core.batch import CompiledBatch, member
-from neuroyard.harness.core.compiled import CompiledNetwork, reset, step
-from neuroyard.harness.core.errors import TaskError
+from neuroyard.core.batch import CompiledBatch, member
+from neuroyard.core.compiled import CompiledNetwork, reset, step
+from neuroyard.core.errors import TaskError
 
 SQUASH = "x / (1 + |x|)"
 

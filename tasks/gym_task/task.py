@@ -41,12 +41,12 @@ from typing import Any
 import gymnasium as gym
 import numpy as np
 
-from neuroyard.harness.core.batch import CompiledBatch, compile_batch
-from neuroyard.harness.core.compiled import CompiledNetwork
-from neuroyard.harness.core.errors import TaskError
-from neuroyard.harness.core.evolver import Evaluation
-from neuroyard.harness.core.network import fully_connected
-from neuroyard.harness.core.options import Option
+from neuroyard.core.batch import CompiledBatch, compile_batch
+from neuroyard.core.compiled import CompiledNetwork
+from neuroyard.core.errors import TaskError
+from neuroyard.core.evolver import Evaluation
+from neuroyard.core.network import fully_connected
+from neuroyard.core.options import Option
 
 from ..base import Metric, SuccessCheck, Task, TaskSpec
 from ..registry import register, register_form

@@ -35,7 +35,7 @@ from typing import Any
 
 import numpy as np
 
-from neuroyard.harness.core.errors import TaskError
+from neuroyard.core.errors import TaskError
 
 KEYS = {"steps", "bounds", "start", "goal", "walls"}
 TABLES = {"bounds": ("width", "height"), "start": ("x", "y", "heading"), "goal": ("x", "y")}

@@ -25,8 +25,8 @@ import math
 import numba
 import numpy as np
 
-from neuroyard.harness.core.batch import CompiledBatch, member
-from neuroyard.harness.core.compiled import CompiledNetwork, new_state, reset, step
+from neuroyard.core.batch import CompiledBatch, member
+from neuroyard.core.compiled import CompiledNetwork, new_state, reset, step
 
 # Directions of the rangefinders relative to the heading, recalled (MEMORY-medium)
 # (reference/SOURCES.md: lehman2011; maze robot).

@@ -30,12 +30,12 @@ from typing import BinaryIO, ClassVar
 
 import numpy as np
 
-from neuroyard.harness.core.batch import CompiledBatch, compile_network
-from neuroyard.harness.core.compiled import CompiledNetwork
-from neuroyard.harness.core.errors import TaskError
-from neuroyard.harness.core.evolver import Evaluation
-from neuroyard.harness.core.network import Network
-from neuroyard.harness.core.options import Option
+from neuroyard.core.batch import CompiledBatch, compile_network
+from neuroyard.core.compiled import CompiledNetwork
+from neuroyard.core.errors import TaskError
+from neuroyard.core.evolver import Evaluation
+from neuroyard.core.network import Network
+from neuroyard.core.options import Option
 
 from ..base import Metric, SuccessCheck, Task, TaskSpec
 from ..registry import register, register_form, retire

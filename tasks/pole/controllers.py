@@ -21,7 +21,7 @@ from collections.abc import Sequence
 import numpy as np
 import scipy.linalg
 
-from neuroyard.harness.core.network import Connection, Network, Node
+from neuroyard.core.network import Connection, Network, Node
 
 from .physics import Physics
 from .plain import plain_derivatives

@@ -22,7 +22,7 @@ from typing import NamedTuple
 import numba
 import numpy as np
 
-from neuroyard.harness.core.compiled import CompiledNetwork, new_state, step
+from neuroyard.core.compiled import CompiledNetwork, new_state, step
 from neuroyard.reference.published import protocol
 
 from .physics import KERNEL, Physics, integration_step, new_workspace, pack_constants

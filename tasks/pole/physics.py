@@ -29,7 +29,7 @@ from typing import NamedTuple
 import numba
 import numpy as np
 
-from neuroyard.harness.core.errors import TaskError
+from neuroyard.core.errors import TaskError
 
 WIELAND_1991 = (
     "Wieland, A. P. (1991). Evolving neural network controllers for unstable systems. "

@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
-from neuroyard.harness.core.reference_activation import ReferenceNet
+from neuroyard.core.reference_activation import ReferenceNet
 
 from .episodes import JIGGLE_WINDOW, EpisodeRules
 from .physics import Physics

@@ -11,8 +11,8 @@ from typing import Any
 
 import numpy as np
 
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.network import Network, validate
+from neuroyard.core.batch import compile_network
+from neuroyard.core.network import Network, validate
 
 
 def trace(task: Any, network: Network, steps: int) -> np.ndarray:

@@ -25,11 +25,11 @@ from typing import Any, ClassVar
 
 import numpy as np
 
-from neuroyard.harness.core.compiled import CompiledNetwork
-from neuroyard.harness.core.errors import TaskError
-from neuroyard.harness.core.evolver import Evaluation
-from neuroyard.harness.core.network import Network
-from neuroyard.harness.core.options import Option
+from neuroyard.core.compiled import CompiledNetwork
+from neuroyard.core.errors import TaskError
+from neuroyard.core.evolver import Evaluation
+from neuroyard.core.network import Network
+from neuroyard.core.options import Option
 from neuroyard.reference.published import protocol as protocol_table
 
 from ..base import Metric, SuccessCheck, Task, TaskSpec

@@ -23,7 +23,8 @@ containment).
 How: REF is checked out in a detached git worktree in a temporary folder and installed,
 not editable, into a private folder that the baseline side puts on PYTHONPATH; the current
 side is the editable working tree. Before anything is timed, each side reports where it
-imports ``neuroyard.harness``, ``neuroyard.tasks`` and ``neuroyard.reference`` from, and the
+imports the harness (``neuroyard``; ``neuroyard.harness`` before 0.2), ``neuroyard.tasks`` and
+``neuroyard.reference`` from, and the
 script stops unless that is its own source. One warm-up campaign per side (not counted)
 builds numba's kernel cache of each install; then campaigns alternate current, baseline,
 current, baseline, ... for N pairs. Medians and ratios are measured side by side in one run.
@@ -151,12 +152,16 @@ def environment(pythonpath: Path | None) -> dict[str, str]:
 
 
 def check_imports(side: Side, cwd: Path) -> Path:
-    """Where ``side`` imports ``neuroyard.harness`` from, in a subprocess with its
+    """Where ``side`` imports the harness from, in a subprocess with its
     environment and working folder; raises ``BenchError`` unless every neuroyard package
     comes from ``side.source``."""
+    # the harness is the package ``neuroyard`` itself from 0.2 on, ``neuroyard.harness`` before
     probe = (
-        "import json, neuroyard.harness, neuroyard.tasks, neuroyard.reference; "
-        f"print(json.dumps({{p: getattr(neuroyard, p).__file__ for p in {PACKAGES!r}}}))"
+        "import json, importlib.util, neuroyard.tasks, neuroyard.reference\n"
+        "old = importlib.util.find_spec('neuroyard.harness') is not None\n"
+        "harness = importlib.import_module('neuroyard.harness' if old else 'neuroyard')\n"
+        "print(json.dumps({'harness': harness.__file__, 'tasks': neuroyard.tasks.__file__, "
+        "'reference': neuroyard.reference.__file__}))"
     )
     files = json.loads(
         _run(
@@ -167,7 +172,7 @@ def check_imports(side: Side, cwd: Path) -> Path:
         expected = side.source / package / "__init__.py"
         if Path(files[package]).resolve() != expected.resolve():
             raise BenchError(
-                f"{side.name} side imports neuroyard.{package} from {files[package]}, "
+                f"{side.name} side imports its {package} package from {files[package]}, "
                 f"not from {expected}"
             )
     return Path(files["harness"])
@@ -238,7 +243,7 @@ def install_commit(commit: str, folder: Path) -> Path:
 
 
 def recorded_import(side: Side, harness: Path, commit: str | None) -> str:
-    """Where ``side`` imports ``neuroyard.harness`` from, as the JSON records it: relative to
+    """Where ``side`` imports the harness from, as the JSON records it: relative to
     the side's source folder, which has the repository's layout (``harness/__init__.py``),
     and for a side installed from a commit prefixed with ``COMMIT:`` as in git's notation
     for a file of a commit. No machine-local path (the repository's location, the temporary
@@ -263,7 +268,7 @@ def recorded_command(argv: Sequence[str]) -> list[str]:
 
 
 def prepare(side: Side, cwd: Path) -> tuple[Side, Path]:
-    """``side`` with its campaign, and where it imports ``neuroyard.harness`` from, after
+    """``side`` with its campaign, and where it imports the harness from, after
     checking that it imports every neuroyard package from ``side.source``."""
     harness = check_imports(side, cwd)
     return replace(side, tasks=campaign_tasks(side, cwd)), harness
@@ -329,7 +334,7 @@ def compare(args: argparse.Namespace, tmp: Path) -> dict[str, Any]:
         side, harness = prepare(side, tmp)
         sides.append(side)
         imports[name] = recorded_import(side, harness, described[name].get("commit"))
-        print(f"{name:8}  imports neuroyard.harness from {harness}")
+        print(f"{name:8}  imports the harness from {harness}")
         print(f"{'':8}  campaign {', '.join(f'{t} x{n}' for t, n in side.tasks)}", flush=True)
 
     warmup, times, solved = time_pairs(sides, args.repeats, args.workers, tmp)

@@ -22,11 +22,11 @@ from typing import Any
 import numpy as np
 
 from neuroyard import tasks
-from neuroyard.harness.core.batch import CompiledBatch, compile_batch, compile_network
-from neuroyard.harness.core.compiled import run_sequence
-from neuroyard.harness.core.network import Connection, Network, Node
-from neuroyard.harness.core.reference_activation import ReferenceNet
-from neuroyard.harness.execution.provenance import versions
+from neuroyard.core.batch import CompiledBatch, compile_batch, compile_network
+from neuroyard.core.compiled import run_sequence
+from neuroyard.core.network import Connection, Network, Node
+from neuroyard.core.reference_activation import ReferenceNet
+from neuroyard.execution.provenance import versions
 
 XOR_BATCH = 150  # networks per batch, issue 2 item 10
 RECURRENT_STEPS = 100_000
@@ -254,8 +254,8 @@ WORKLOADS: dict[str, Callable[[], Workload]] = {
 FIRST_EVALUATION = """
 import time
 from neuroyard import tasks
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.network import fully_connected
+from neuroyard.core.batch import compile_network
+from neuroyard.core.network import fully_connected
 task = tasks.make("xor-v2")
 task.evaluate(compile_network(fully_connected(2, 1, [1.0, -1.0, 0.5]), 2, 1))
 print(time.time(), time.process_time())

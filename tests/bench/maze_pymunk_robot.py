@@ -6,7 +6,7 @@ separately: the walls are static pymunk segments of radius 0; each rangefinder i
 segment query (``segment_query_first``) from the robot's centre out to ``RANGE``; a move
 is refused when a pymunk point query finds a wall within ``RADIUS`` of the new position.
 Radar, turn and speed are plain ``math``. The network is the harness's compiled network,
-stepped by :func:`~neuroyard.harness.core.compiled.step` called from Python once per time
+stepped by :func:`~neuroyard.core.compiled.step` called from Python once per time
 step, so both sides compute the same network and the comparison times the robot loop:
 sensing, moving, collisions.
 """
@@ -18,7 +18,7 @@ import math
 import numpy as np
 import pymunk
 
-from neuroyard.harness.core.compiled import CompiledNetwork, new_state, reset, step
+from neuroyard.core.compiled import CompiledNetwork, new_state, reset, step
 from neuroyard.tasks.maze.robot import MAX_SPEED, MAX_TURN, RADIUS, RANGE, RANGEFINDER_ANGLES
 
 ANY_SHAPE = pymunk.ShapeFilter()

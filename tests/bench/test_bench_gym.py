@@ -37,8 +37,8 @@ import kernel_workloads as workloads  # tests/bench is on pytest's pythonpath
 import numpy as np
 import pytest
 
-from neuroyard.harness.core.batch import CompiledBatch, compile_batch
-from neuroyard.harness.core.network import Connection, Network, Node, fully_connected
+from neuroyard.core.batch import CompiledBatch, compile_batch
+from neuroyard.core.network import Connection, Network, Node, fully_connected
 from neuroyard.tasks import make
 from neuroyard.tasks.gym_task.task import SLOTS, GymEnvTask
 

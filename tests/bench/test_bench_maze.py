@@ -29,8 +29,8 @@ import numpy as np
 import pytest
 
 from neuroyard import tasks
-from neuroyard.harness.core.batch import CompiledBatch, compile_batch
-from neuroyard.harness.core.network import Connection, Network, Node
+from neuroyard.core.batch import CompiledBatch, compile_batch
+from neuroyard.core.network import Connection, Network, Node
 from neuroyard.reference.neat import NoveltyNeat
 from neuroyard.tasks.maze import MazeTask
 from neuroyard.tasks.maze.robot import N_INPUTS, RADIUS, run_batch

@@ -16,9 +16,9 @@ from collections.abc import Callable
 import numpy as np
 import pytest
 
-from neuroyard.harness.core.batch import compile_network
-from neuroyard.harness.core.network import Connection, Network, Node
-from neuroyard.harness.core.reference_activation import ReferenceNet
+from neuroyard.core.batch import compile_network
+from neuroyard.core.network import Connection, Network, Node
+from neuroyard.core.reference_activation import ReferenceNet
 from neuroyard.tasks.pole import balance
 from neuroyard.tasks.pole.controllers import difference_network, lqr_gains, state_feedback_network
 from neuroyard.tasks.pole.plain import plain_balance

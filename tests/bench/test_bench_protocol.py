@@ -37,9 +37,9 @@ from typing import Any
 
 import pytest
 
-from neuroyard.harness.core import protocol
-from neuroyard.harness.core.batch import compile_batch
-from neuroyard.harness.core.evolver import Outcome
+from neuroyard.core import protocol
+from neuroyard.core.batch import compile_batch
+from neuroyard.core.evolver import Outcome
 from neuroyard.reference.hill_climber import HillClimber
 from neuroyard.reference.other_languages import es_node
 from neuroyard.tasks import make

@@ -25,12 +25,12 @@ from pathlib import Path
 import distributed
 import pytest
 
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.dask_executor import DaskExecutor, local_cluster
-from neuroyard.harness.execution.executors import Executor, make_executor
-from neuroyard.harness.execution.supervisor import Limits
-from neuroyard.harness.records.store import ResultStore
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.execution.dask_executor import DaskExecutor, local_cluster
+from neuroyard.execution.executors import Executor, make_executor
+from neuroyard.execution.supervisor import Limits
+from neuroyard.records.store import ResultStore
 
 pytestmark = pytest.mark.bench
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from neuroyard.harness.core.evolver_registry import EvolverSpec
+from neuroyard.core.evolver_registry import EvolverSpec
 
 # The paper's compatibility threshold was "variable (dynamic)" (App. A, Table 1) and gives
 # no target; neuroyard's NEAT keeps it fixed. At the default 3.0 (with the XOR-tuned weight

@@ -28,12 +28,12 @@ from typing import Any
 import pytest
 from maze_study import side
 
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.supervisor import Supervisor
-from neuroyard.harness.records.runs import RunRecord
-from neuroyard.harness.records.store import ResultStore
-from neuroyard.harness.reports.report import summary_of
-from neuroyard.harness.reports.significance import (
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.execution.supervisor import Supervisor
+from neuroyard.records.runs import RunRecord
+from neuroyard.records.store import ResultStore
+from neuroyard.reports.report import summary_of
+from neuroyard.reports.significance import (
     censored_evaluations,
     fisher_test,
     mann_whitney,

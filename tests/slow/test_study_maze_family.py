@@ -28,10 +28,10 @@ import pytest
 from maze_study import side
 from scipy import stats
 
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.supervisor import Supervisor
-from neuroyard.harness.records.runs import RunRecord
-from neuroyard.harness.records.store import ResultStore
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.execution.supervisor import Supervisor
+from neuroyard.records.runs import RunRecord
+from neuroyard.records.store import ResultStore
 
 pytestmark = pytest.mark.slow
 

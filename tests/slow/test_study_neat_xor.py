@@ -27,12 +27,12 @@ from pathlib import Path
 
 import pytest
 
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.supervisor import Supervisor
-from neuroyard.harness.records.store import ResultStore
-from neuroyard.harness.reports import renderers, report
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.execution.supervisor import Supervisor
+from neuroyard.records.store import ResultStore
 from neuroyard.reference.published import figures_for
+from neuroyard.reports import renderers, report
 
 OUT = Path(__file__).resolve().parents[2] / "results" / "neat_xor"
 RUNS, SEED, WORKERS, POPULATION = 100, 1, 2, 150

@@ -19,13 +19,13 @@ from pathlib import Path
 
 import pytest
 
-from neuroyard.harness.cli.main import main
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.supervisor import Supervisor
-from neuroyard.harness.records.store import ResultStore
-from neuroyard.harness.reports import report
-from neuroyard.harness.reports.renderers import render
+from neuroyard.cli.main import main
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.execution.supervisor import Supervisor
+from neuroyard.records.store import ResultStore
+from neuroyard.reports import report
+from neuroyard.reports.renderers import render
 
 pytestmark = pytest.mark.slow
 

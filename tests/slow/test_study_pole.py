@@ -20,14 +20,14 @@ from typing import Any
 
 import pytest
 
-from neuroyard.harness.core.evolver_registry import EvolverSpec
-from neuroyard.harness.execution.campaign import CampaignPlan, TaskChoice, execute
-from neuroyard.harness.execution.supervisor import Supervisor
-from neuroyard.harness.records.runs import RunRecord
-from neuroyard.harness.records.store import ResultStore
-from neuroyard.harness.reports.report import summary_of
-from neuroyard.harness.reports.stats import GroupSummary
+from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+from neuroyard.execution.supervisor import Supervisor
+from neuroyard.records.runs import RunRecord
+from neuroyard.records.store import ResultStore
 from neuroyard.reference.published import ReferenceFigure, figures_for
+from neuroyard.reports.report import summary_of
+from neuroyard.reports.stats import GroupSummary
 from neuroyard.tasks.pole.generalization import protocol
 
 pytestmark = pytest.mark.slow
