@@ -35,10 +35,31 @@ from neuroyard.core.options import Option, OptionTable
 
 @dataclass(frozen=True)
 class Metric:
-    """An extra figure a task's success test yields (beside solved or not): its ``name``,
-    which is also its key in :attr:`SuccessCheck.details`, what it measures, its ``unit``
-    and whether a ``higher`` or ``lower`` value is better. Summaries and reports show the
-    mean over solved runs of every metric a task declares, with no harness change."""
+    """An extra figure a task's success test yields, beside solved or not.
+
+    A task lists its metrics in :attr:`TaskSpec.metrics` and puts each value in
+    :attr:`SuccessCheck.details` under the metric's name. Summaries and reports show the
+    mean over solved runs of every metric a task declares, with no harness change.
+
+    Args:
+        name: the metric's name, also its key in :attr:`SuccessCheck.details`.
+        description: what it measures, in a phrase.
+        unit: the unit of its value (``"steps"``, ``"%"``); empty for plain numbers.
+        better: ``"higher"`` or ``"lower"``: which way a value is better.
+
+    Raises:
+        ValueError: ``better`` is neither ``"higher"`` nor ``"lower"``.
+
+    Example:
+        >>> from neuroyard import Metric
+        >>> gap = Metric("gap", "distance from the end point to the goal", better="lower")
+        >>> gap.unit, gap.better
+        ('', 'lower')
+        >>> Metric("steps", "steps to the goal", better="less")
+        Traceback (most recent call last):
+        ...
+        ValueError: metric steps: better must be 'higher' or 'lower'
+    """
 
     name: str
     description: str
@@ -60,13 +81,41 @@ class TaskSpec:
     then records ``min_fitness``, the task's worst, and counts the evaluation in the
     generation log. A finite fitness outside the bounds is a fault of the task.
 
-    For evolver authors: ``observations`` names the inputs in input-node order with their
-    meaning and scaling, ``actions`` the outputs in output-node order with how each is
-    turned into an action, ``output_rule`` how an output outside its meaningful range (or
-    non-finite) is treated. ``metrics``: the extra figures the success test reports
-    (:class:`Metric`). ``facts``: figures that describe this task instance under its
-    settings (a maze's deception score), by name; every run record keeps them
-    (``RunRecord.task_facts``) so that outcomes can be set against them.
+    Args:
+        id: the task's versioned id, ``name-vN``.
+        inputs: the number of input nodes a network must have (one per observation value).
+        outputs: the number of output nodes a network must have (one per action value).
+        fitness: how the fitness of one evaluation is computed, in words (or a formula).
+        success: the success criterion, in words.
+        default_budget: the evaluations a run may make when the campaign names no budget.
+        sources: the publications the task follows, each with its section (cited through
+            ``reference/SOURCES.md``), or why there is none.
+        max_fitness: the best possible fitness, or None when there is no upper bound.
+        min_fitness: the worst possible fitness (recorded for a non-finite one).
+        behaviour_size: the length of each evaluation's behaviour descriptor
+            (``Evaluation.behaviour``), or None when the task gives none.
+        needs_memory: True when the observations hide part of the state, so that a
+            network needs recurrent connections to solve the task.
+        settings: the task's settings, every one with its value, defaults included.
+        observations: for evolver authors: each input, in input-node order, with its
+            meaning and scaling.
+        actions: each output, in output-node order, and how it becomes an action.
+        output_rule: how an output outside its meaningful range, or not finite, is treated.
+        metrics: the extra figures the success test reports (:class:`Metric`).
+        facts: figures that describe this task instance under its settings (a maze's
+            deception score), by name; every run record keeps them
+            (``RunRecord.task_facts``) so that outcomes can be set against them.
+
+    Example:
+        >>> from neuroyard import TaskSpec
+        >>> spec = TaskSpec(
+        ...     id="majority-v1", inputs=3, outputs=1,
+        ...     fitness="patterns answered correctly (0 to 8)",
+        ...     success="all 8 patterns answered correctly",
+        ...     default_budget=10_000, sources=("ours",), max_fitness=8.0,
+        ... )
+        >>> spec.min_fitness, spec.needs_memory, spec.metrics
+        (0.0, False, ())
     """
 
     id: str
@@ -90,7 +139,20 @@ class TaskSpec:
 
 @dataclass(frozen=True)
 class SuccessCheck:
-    """Outcome of a success test: solved?, episodes it ran, and task-specific details."""
+    """The outcome of a task's success test on one network.
+
+    Args:
+        solved: whether the network meets the task's success criterion.
+        evaluations: the episodes the test ran (counted apart from the run's evaluations).
+        details: task-specific figures of the test, by name (a generalization score); the
+            value of each :class:`Metric` of the task is here under the metric's name.
+
+    Example:
+        >>> from neuroyard import SuccessCheck
+        >>> check = SuccessCheck(solved=True, evaluations=626, details={"generalization": 212})
+        >>> check.solved, check.details["generalization"]
+        (True, 212)
+    """
 
     solved: bool
     evaluations: int
@@ -98,7 +160,44 @@ class SuccessCheck:
 
 
 class Task(ABC):
-    """Base class. Subclasses set ``id`` and ``options`` and implement the abstract methods."""
+    """A benchmark task: the base class every task subclasses.
+
+    A subclass sets ``id`` (``name-vN``) and ``options`` (its settings, a tuple of
+    :class:`~neuroyard.core.options.Option`; ``needs``: the settings without a default that
+    must be given) and implements :attr:`spec`, :meth:`evaluate` and :meth:`success_test`.
+    Tasks are built by id with :func:`neuroyard.tasks.make`, which calls the class with the
+    task seed and the settings. One :meth:`evaluate` call is one counted evaluation; a
+    success test's episodes are counted apart. Any randomness of the task comes from
+    ``seed``, so the same seed and settings give the same task.
+
+    Args:
+        seed: the task seed, positional only (so that a task may have a setting called
+            ``seed``); the harness derives it from the campaign seed, the task and the run
+            index, so every evolver meets the same task instance in run i.
+        **settings: the task's settings by name; the rest take their defaults. Every
+            setting is then in ``self.settings``.
+
+    Raises:
+        TaskError: a setting is unknown, of the wrong type, out of its range, or does not
+            fit with the others (:meth:`check_settings`); the message names it.
+
+    Example:
+        >>> from neuroyard import make_task
+        >>> from neuroyard.core.batch import compile_network
+        >>> from neuroyard.core.network import fully_connected
+        >>> task = make_task("xor-v2")  # task seed 0, every setting at its default
+        >>> task.settings
+        {'recurrent_steps': 5}
+        >>> task.spec.inputs, task.spec.outputs, task.spec.max_fitness
+        (2, 1, 16.0)
+        >>> weights = [1, 1, -0.5, 1, 1, -1.5, 1, -1, -0.5]  # hidden OR, AND; out OR and not AND
+        >>> net = compile_network(fully_connected(2, 1, weights, activation="step", hidden=2))
+        >>> result = task.evaluate(net)
+        >>> result.fitness
+        16.0
+        >>> task.success_test(net, result)
+        SuccessCheck(solved=True, evaluations=1, details={})
+    """
 
     id: ClassVar[str]
     options: ClassVar[tuple[Option, ...]] = ()
@@ -120,13 +219,34 @@ class Task(ABC):
 
     @property
     @abstractmethod
-    def spec(self) -> TaskSpec: ...
+    def spec(self) -> TaskSpec:
+        """What the task is under its settings (:class:`TaskSpec`)."""
 
     @abstractmethod
-    def evaluate(self, net: CompiledNetwork) -> Evaluation: ...
+    def evaluate(self, net: CompiledNetwork) -> Evaluation:
+        """Evaluate one network: one counted evaluation.
+
+        Args:
+            net: the network, checked and compiled for the task's inputs and outputs.
+
+        Returns:
+            Its fitness (within ``[spec.min_fitness, spec.max_fitness]``, or NaN only when
+            the network's output was not finite) and its behaviour descriptor (of
+            ``spec.behaviour_size`` numbers, or None).
+        """
 
     @abstractmethod
-    def success_test(self, net: CompiledNetwork, evaluation: Evaluation) -> SuccessCheck: ...
+    def success_test(self, net: CompiledNetwork, evaluation: Evaluation) -> SuccessCheck:
+        """Apply the task's success criterion to one network; deterministic (the harness
+        never tests an identical network twice in a run).
+
+        Args:
+            net: the network, as given to :meth:`evaluate`.
+            evaluation: the result :meth:`evaluate` gave for it.
+
+        Returns:
+            Whether it is solved, the episodes the test ran and the test's details.
+        """
 
     def evaluate_batch(self, batch: CompiledBatch) -> list[Evaluation]:
         """Evaluate every network of a batch, in order; each is one counted evaluation.

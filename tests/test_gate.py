@@ -429,8 +429,8 @@ def test_the_plugin_fails_on_a_bad_baseline_with_one_line(pytester):
 
 def test_the_plugin_loads_nothing_heavy():
     code = (
-        "import sys, neuroyard.cli.pytest_plugin\n"
-        "print([m for m in ('numpy', 'numba', 'scipy', 'neuroyard.cli.gate') "
+        "import sys, neuroyard.pytest_plugin\n"
+        "print([m for m in ('numpy', 'numba', 'scipy', 'neuroyard.api.judging') "
         "if m in sys.modules])"
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)

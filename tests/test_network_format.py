@@ -3,14 +3,18 @@
 from __future__ import annotations
 
 import copy
+import json
 import math
 import re
+from pathlib import Path
 
 import jsonschema
 import numpy as np
 import pytest
 import scipy.special
 
+from neuroyard.core import activations
+from neuroyard.core import network as network_module
 from neuroyard.core.activations import CODES, NAMES, apply, reference
 from neuroyard.core.errors import NetworkError
 from neuroyard.core.network import (
@@ -324,6 +328,116 @@ def test_malformed_documents_fail_schema_and_loader(doc: dict, message: str) -> 
     with pytest.raises(NetworkError) as info:
         from_dict(doc)
     assert message in str(info.value)
+
+
+# --- the JSON form as methods of Network ----------------------------------------------
+
+
+@pytest.mark.parametrize("name", sorted(NETWORKS))
+def test_methods_round_trip_and_match_the_module_functions(name: str) -> None:
+    net = NETWORKS[name]
+    assert net.to_dict() == to_dict(net)
+    assert net.to_json() == dumps(net)
+    assert Network.from_dict(net.to_dict()) == net
+    assert Network.from_json(net.to_json()) == net
+    validator = jsonschema.Draft202012Validator(schema())
+    validator.validate(net.to_dict())
+    validator.validate(json.loads(net.to_json()))
+
+
+@pytest.mark.parametrize("name", sorted(NETWORKS))
+def test_from_file_round_trip(name: str, tmp_path: Path) -> None:
+    net = NETWORKS[name]
+    path = tmp_path / "net.json"
+    path.write_text(net.to_json(), encoding="utf-8")
+    assert Network.from_file(path) == net
+    assert Network.from_file(str(path)) == net
+
+
+@pytest.mark.parametrize(("doc", "message"), MALFORMED)
+def test_methods_refuse_what_the_module_functions_refuse(doc: dict, message: str) -> None:
+    with pytest.raises(NetworkError) as module_error:
+        from_dict(doc, where="doc.json")
+    with pytest.raises(NetworkError) as method_error:
+        Network.from_dict(doc, where="doc.json")
+    assert str(method_error.value) == str(module_error.value)
+    assert str(method_error.value).startswith("doc.json: ") and message in str(method_error.value)
+    with pytest.raises(NetworkError) as json_error:
+        Network.from_json(json.dumps(doc), where="doc.json")
+    assert str(json_error.value) == str(module_error.value)
+
+
+def file_error(path: Path | str) -> str:
+    """The message of the NetworkError that reading ``path`` gives; checks it is one line."""
+    with pytest.raises(NetworkError) as info:
+        Network.from_file(path)
+    message = str(info.value)
+    assert "\n" not in message
+    return message
+
+
+def test_from_file_names_a_missing_file(tmp_path: Path) -> None:
+    path = tmp_path / "missing.json"
+    assert file_error(path) == f"network file {path}: cannot read it (No such file or directory)"
+
+
+def test_from_file_names_a_folder(tmp_path: Path) -> None:
+    assert file_error(tmp_path) == f"network file {tmp_path}: cannot read it (Is a directory)"
+
+
+def test_from_file_names_a_file_that_is_not_utf8(tmp_path: Path) -> None:
+    path = tmp_path / "latin1.json"
+    path.write_bytes(b'{"nodes": [], "connections": [], "mode": "r\xe9current"}')
+    offset = path.read_bytes().index(b"\xe9")
+    assert file_error(path).startswith(f"network file {path}: not UTF-8 text (byte {offset}: ")
+
+
+def test_from_file_names_the_file_and_line_of_bad_json(tmp_path: Path) -> None:
+    path = tmp_path / "broken.json"
+    path.write_text('{"nodes": [],\n "connections": [,]}', encoding="utf-8")
+    assert re.fullmatch(
+        rf"network file {re.escape(str(path))}: not valid JSON \(.* at line 2\)", file_error(path)
+    )
+
+
+@pytest.mark.parametrize(("doc", "message"), MALFORMED)
+def test_from_file_names_the_file_of_an_invalid_network(
+    doc: dict, message: str, tmp_path: Path
+) -> None:
+    assert not jsonschema.Draft202012Validator(schema()).is_valid(doc)
+    path = tmp_path / "bad.json"
+    path.write_text(json.dumps(doc), encoding="utf-8")
+    error = file_error(path)
+    assert error.startswith(f"network file {path}: ") and message in error
+
+
+# --- the activation table in Network's docstring ----------------------------------------
+
+
+def doc_rows(text: str, row: str) -> dict[str, str]:
+    """Activation name -> formula, from the lines of ``text`` matching ``row``."""
+    return {m["name"]: m["formula"] for m in re.finditer(row, text, re.MULTILINE)}
+
+
+def test_network_docstring_lists_every_activation_with_its_formula() -> None:
+    # the module's table is the specification ("| name | formula  (source) |", under a
+    # header row); Network's docstring repeats it as "name  f(x) = formula"
+    table = doc_rows(activations.__doc__, r"^\| (?P<name>\w+) +\| (?P<formula>.+?)(  .*)? *\|$")
+    table.pop("name")  # the header row
+    listed = doc_rows(Network.__doc__, r"^ +(?P<name>\w+) +f\(x\) = (?P<formula>.+?) *$")
+    assert set(table) == set(NAMES)
+    for name in NAMES:
+        assert name in listed, f"activation {name} is missing from Network.__doc__"
+        assert listed[name] == table[name], name
+    assert set(listed) == set(NAMES)
+
+
+def test_network_docstring_states_the_node_formula() -> None:
+    formula = (
+        "y_i = f_i( gain_i * ( bias_i + sum over enabled connections j->i of weight_ji * y_j ) )"
+    )
+    assert formula in network_module.__doc__
+    assert formula in Network.__doc__
 
 
 # --- JSON Schema -----------------------------------------------------------------------

@@ -75,7 +75,7 @@ def test_settings_go_to_the_tasks_that_have_them(tmp_path, capsys) -> None:
         ("xor-v2", '{"recurrent_steps": 5}'),  # the same xor run both times: stored once
     ]
     for setting, words in (
-        ("start_angle=0.05", "--setting start_angle=0.05: none of xor-v2, parity-v2 has"),
+        ("start_angle=0.05", "setting start_angle=0.05: none of xor-v2, parity-v2 has"),
         ("pole2-markov-v1:start_angle=0.05", "'pole2-markov-v1' is not in this campaign"),
         ("parity-v2:bits=40", "task parity-v2: setting 'bits' must be within 2..12, got 40"),
     ):

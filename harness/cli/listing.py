@@ -25,23 +25,6 @@ NETWORK_CONVENTIONS = (
 )
 
 
-def add_parsers(sub: Any, assignment: Any) -> None:
-    """Register ``tasks`` and ``evolvers`` on the command line's subparsers (``assignment``
-    parses ``KEY=VALUE``)."""
-    t = sub.add_parser("tasks", help="list the tasks with interface, criteria, settings, sources")
-    t.add_argument(
-        "task", nargs="?", help="one task id or FORM:VALUE: also every setting with its source"
-    )
-    t.add_argument(
-        "--setting", type=assignment, action="append", default=[], metavar="KEY=VALUE",
-        help="a setting of the one task (its spec and facts under that setting)",
-    )  # fmt: skip
-    t.add_argument("--format", choices=("text", "json"), default="text")
-    e = sub.add_parser("evolvers", help="list the installed evolvers, or one with its options")
-    e.add_argument("evolver", nargs="?", help="an evolver name: every option with its source")
-    e.add_argument("--format", choices=("text", "json"), default="text")
-
-
 def tasks_command(args: argparse.Namespace) -> None:
     """Print the tasks (all, or ``args.task`` with its settings table)."""
     if args.task is None:

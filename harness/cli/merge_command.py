@@ -4,19 +4,8 @@
 from __future__ import annotations
 
 import argparse
-from pathlib import Path
-from typing import Any
 
 from neuroyard.records.merge import merge
-
-
-def add_parser(sub: Any) -> None:
-    """Register ``merge`` on the command line's subparsers."""
-    p = sub.add_parser(
-        "merge", help="combine the stores of one campaign's shares (batch jobs) into one"
-    )
-    p.add_argument("out", type=Path, metavar="OUT", help="store to merge into (created if missing)")
-    p.add_argument("stores", type=Path, nargs="+", metavar="STORE", help="stores to merge")
 
 
 def command(args: argparse.Namespace) -> None:

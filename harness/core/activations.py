@@ -16,6 +16,9 @@ agree to rounding.
 | sin           | sin(x)                                 |
 | abs           | abs(x)                                 |
 | step          | 1 if x > 0 else 0                      |
+
+The docstring of :class:`~neuroyard.core.network.Network` repeats this table for readers of
+the public API; ``tests/test_network_format.py`` holds the two to the same names and formulas.
 """
 
 import math

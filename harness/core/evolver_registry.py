@@ -36,20 +36,30 @@ EvolverFactory = Callable[..., Evolver]
 class EvolverSpec:
     """A named evolver and its configuration: everything needed to build it in any process.
 
-    ``name`` is an entry-point name or a ``module:attr`` path; ``config`` (the options
-    given) is passed to the factory as keyword arguments. ``effective_config`` is the
-    configuration the evolver runs under and ``config_hash`` identifies it in results.
+    ``name`` is an entry-point name, a ``module:attr`` path or ``process:COMMAND``, and
+    identifies the evolver in run keys, seeds and results; ``config`` (the options given) is
+    passed to the factory as keyword arguments. ``factory``, when given, is the evolver
+    class (or callable) itself, for one that no name can find (a class defined in a script or
+    a notebook): it is used instead of looking ``name`` up, and reaches worker processes by
+    reference (pickled as ``module.qualname``; see :func:`neuroyard.api.campaigns.run`).
+    ``effective_config`` is the configuration the evolver runs under and ``config_hash``
+    identifies it in results; both are computed once per spec.
     """
 
     name: str
     config: Mapping[str, Any] = field(default_factory=dict)
+    factory: EvolverFactory | None = field(default=None, compare=False, repr=False)
+
+    def load(self) -> EvolverFactory:
+        """The factory: ``factory`` when given, else the one ``name`` finds."""
+        return self.factory if self.factory is not None else load_factory(self.name)
 
     @cached_property
     def effective_config(self) -> dict[str, Any]:
         """Every declared option with its value, given or default, when the factory declares
         an option table (``options``); else the given configuration as it is. A bad option
         is an :class:`EvolverError` naming it."""
-        table = option_table(load_factory(self.name))
+        table = option_table(self.load())
         if table is None:
             return dict(self.config)
         try:
@@ -57,19 +67,19 @@ class EvolverSpec:
         except ValueError as exc:
             raise EvolverError(str(exc)) from None
 
-    @property
+    @cached_property
     def config_hash(self) -> str:
         """12 hex digits of the SHA-256 of the effective configuration. It covers the
         content of a file an option names when the option table holds its digest
         (``Option.digest_of``; :meth:`OptionTable.identity`)."""
-        table = option_table(load_factory(self.name))
+        table = option_table(self.load())
         config = self.effective_config if table is None else table.identity(self.effective_config)
         text = json.dumps(config, sort_keys=True, default=str)
         return hashlib.sha256(text.encode()).hexdigest()[:12]
 
     def build(self) -> Evolver:
         """Instantiate the evolver; configuration errors become :class:`EvolverError`."""
-        factory = load_factory(self.name)
+        factory = self.load()
         try:
             return factory(**dict(self.config))
         except SettingError as exc:

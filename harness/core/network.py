@@ -28,6 +28,7 @@ from __future__ import annotations
 import json
 import math
 import numbers
+import os
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from importlib import resources
@@ -46,7 +47,30 @@ FORMAT_VERSION = 1
 
 @dataclass(frozen=True, slots=True)
 class Node:
-    """One node: integer id (unique in the network), kind, activation name, bias, gain."""
+    """One node of a :class:`Network`.
+
+    Input and bias nodes carry no computation: their activation stays ``identity``, their
+    bias 0.0 and their gain 1.0 (anything else is a format error). Hidden and output nodes
+    compute ``activation(gain * (bias + weighted sum of their enabled inputs))`` (the node
+    formula in :class:`Network`). The constructor checks nothing; :func:`validate` does.
+
+    Args:
+        id: the node's id, an integer in [-2**63, 2**63), unique in its network; any
+            numbering will do (ids need not be consecutive or ordered).
+        kind: ``"input"`` (receives one observation value), ``"bias"`` (holds the
+            constant 1.0), ``"hidden"`` or ``"output"`` (gives one action value).
+        activation: the name of the node's activation function, one of
+            :data:`~neuroyard.core.activations.NAMES` (formulas in :class:`Network`).
+        bias: added to the weighted sum before the gain; a finite number.
+        gain: multiplies the biased sum before the activation; a finite number.
+
+    Example:
+        >>> from neuroyard import Node
+        >>> Node(0, "input")
+        Node(id=0, kind='input', activation='identity', bias=0.0, gain=1.0)
+        >>> Node(7, "hidden", "tanh", bias=-0.5, gain=2.0).activation
+        'tanh'
+    """
 
     id: int
     kind: NodeKind
@@ -57,7 +81,26 @@ class Node:
 
 @dataclass(frozen=True, slots=True)
 class Connection:
-    """A weighted link from node ``source`` to node ``target``; ignored when not enabled."""
+    """A weighted link from one node to another.
+
+    A connection whose ``enabled`` is False is kept in the network (an evolver may switch
+    it on again later) but ignored when the network runs and when its size is counted.
+    Nothing may connect into an input or bias node; in feedforward mode the enabled
+    connections must form no cycle. The constructor checks nothing; :func:`validate` does.
+
+    Args:
+        source: the id of the node the signal comes from (any kind).
+        target: the id of the node it goes to (a hidden or output node).
+        weight: multiplies the source's value; a finite number.
+        enabled: whether the connection takes part (True) or is ignored (False).
+
+    Example:
+        >>> from neuroyard import Connection
+        >>> Connection(0, 3, -1.5)
+        Connection(source=0, target=3, weight=-1.5, enabled=True)
+        >>> Connection(3, 3, 0.9, enabled=False).enabled  # a disabled self-loop
+        False
+    """
 
     source: int
     target: int
@@ -67,7 +110,75 @@ class Connection:
 
 @dataclass(frozen=True, slots=True)
 class Network:
-    """Nodes, connections and evaluation mode. Construct freely; call :func:`validate`."""
+    """A neural network in the interchange format: nodes, connections and evaluation mode.
+
+    It is what an evolver's ``ask()`` returns and what the harness compiles and runs. The
+    constructor checks nothing, so that an evolver can build networks quickly; the rules of
+    the format are checked by :func:`validate`, by :meth:`from_dict`, :meth:`from_json` and
+    :meth:`from_file`, and by the harness on every network it is given. Networks are
+    immutable and compare equal when their nodes, connections and mode are equal, in order
+    (``meta`` is not compared).
+
+    Inputs and outputs: the k-th input node in ``nodes`` receives the k-th observation value
+    and the k-th output node gives the k-th action value; bias nodes hold 1.0.
+
+    Node formula (the one definition used everywhere): every hidden and output node i
+    computes, once per network step,
+
+        y_i = f_i( gain_i * ( bias_i + sum over enabled connections j->i of weight_ji * y_j ) )
+
+    where f_i is the node's activation, one of (x is the argument above):
+
+        sigmoid       f(x) = 1 / (1 + e^(-x))
+        neat_sigmoid  f(x) = 1 / (1 + e^(-4.9 x))
+        tanh          f(x) = tanh(x)
+        relu          f(x) = max(0, x)
+        identity      f(x) = x
+        gauss         f(x) = e^(-x^2)
+        sin           f(x) = sin(x)
+        abs           f(x) = abs(x)
+        step          f(x) = 1 if x > 0 else 0
+
+    Modes: ``"feedforward"``: the enabled connections form no cycle; each step the inputs
+    are set and every node is computed once, in topological order, so the outputs answer
+    this step's inputs. ``"recurrent"``: any topology, self-loops included; each step the
+    inputs are set, then every hidden and output node updates once, all at the same time,
+    reading input and bias nodes at this step's value and every other node at its value of
+    the previous step (every node starts at 0). Disabled connections are ignored in both.
+
+    Size: :attr:`hidden_nodes` (hidden nodes) and :attr:`enabled_connections` (enabled
+    connections); input, bias and output nodes and disabled connections are not counted.
+
+    Args:
+        nodes: the nodes (:class:`Node`), in the order that assigns observation values to
+            input nodes and action values to output nodes.
+        connections: the connections (:class:`Connection`), in any order.
+        mode: ``"feedforward"`` or ``"recurrent"`` (see Modes above).
+        meta: free information for the evolver's own use (a genome id, say); not part of
+            the JSON form, not compared, not read by the harness.
+
+    Example:
+        XOR from threshold units: hidden node 3 is OR, hidden node 4 is AND, the output is
+        OR and not AND.
+
+        >>> from neuroyard import Connection, Network, Node
+        >>> xor = Network(
+        ...     nodes=(
+        ...         Node(0, "input"), Node(1, "input"),
+        ...         Node(3, "hidden", "step", bias=-0.5), Node(4, "hidden", "step", bias=-1.5),
+        ...         Node(5, "output", "step", bias=-0.5),
+        ...     ),
+        ...     connections=(
+        ...         Connection(0, 3, 1.0), Connection(1, 3, 1.0),
+        ...         Connection(0, 4, 1.0), Connection(1, 4, 1.0),
+        ...         Connection(3, 5, 1.0), Connection(4, 5, -1.0),
+        ...     ),
+        ... )
+        >>> xor.n_inputs, xor.n_outputs, xor.hidden_nodes, xor.enabled_connections
+        (2, 1, 2, 6)
+        >>> Network.from_json(xor.to_json()) == xor  # reading checks every rule
+        True
+    """
 
     nodes: tuple[Node, ...]
     connections: tuple[Connection, ...]
@@ -76,10 +187,12 @@ class Network:
 
     @property
     def n_inputs(self) -> int:
+        """Number of input nodes (the observation values the network takes)."""
         return sum(1 for n in self.nodes if n.kind == "input")
 
     @property
     def n_outputs(self) -> int:
+        """Number of output nodes (the action values the network gives)."""
         return sum(1 for n in self.nodes if n.kind == "output")
 
     @property
@@ -91,6 +204,152 @@ class Network:
     def enabled_connections(self) -> int:
         """Number of enabled connections (the other size measure)."""
         return sum(1 for c in self.connections if c.enabled)
+
+    # The methods below are the module functions of the same names (to_dict, from_dict,
+    # dumps, loads) as methods; the module functions hold the logic.
+
+    def to_dict(self) -> dict[str, Any]:
+        """The network's JSON form as a dict of plain values (see :func:`to_dict`).
+
+        The form follows the JSON Schema of :func:`schema`; ``meta`` is left out. Nothing
+        is checked: an invalid network gives its (invalid) form.
+
+        Returns:
+            A dict with the keys ``format``, ``version``, ``mode``, ``nodes`` and
+            ``connections``; input and bias nodes are written with their id and kind only.
+
+        Example:
+            >>> from neuroyard import Connection, Network, Node
+            >>> net = Network((Node(0, "input"), Node(1, "output", "tanh")), (Connection(0, 1, 2.0),))
+            >>> doc = net.to_dict()
+            >>> doc["format"], doc["version"], doc["mode"]
+            ('neuroyard-network', 1, 'feedforward')
+            >>> doc["nodes"]
+            [{'id': 0, 'kind': 'input'}, {'id': 1, 'kind': 'output', 'activation': 'tanh', 'bias': 0.0, 'gain': 1.0}]
+            >>> doc["connections"]
+            [{'source': 0, 'target': 1, 'weight': 2.0, 'enabled': True}]
+        """
+        return to_dict(self)
+
+    @classmethod
+    def from_dict(cls, doc: Mapping[str, Any], where: str = "network") -> Network:
+        """Read and check a network's JSON form (see :func:`from_dict`).
+
+        ``format``, ``version``, ``mode``, a node's ``activation``, ``bias`` and ``gain`` and
+        a connection's ``enabled`` may be left out: they take their defaults
+        (``neuroyard-network``, 1, ``feedforward``, ``identity``, 0.0, 1.0, true).
+
+        Args:
+            doc: the JSON form, as parsed from JSON (a mapping of plain values).
+            where: what the document is, put at the start of every error message (a file
+                name, ``"candidate 3 of generation 12"``).
+
+        Returns:
+            The network, checked against every rule of the format.
+
+        Raises:
+            NetworkError: the document is not the JSON form (an unknown key, a missing
+                entry, another format or version) or the network breaks a rule of the
+                format; the one-line message starts with ``where`` and names the offending
+                node or connection.
+
+        Example:
+            >>> from neuroyard import Network
+            >>> doc = {
+            ...     "nodes": [{"id": 0, "kind": "input"}, {"id": 1, "kind": "output"}],
+            ...     "connections": [{"source": 0, "target": 1, "weight": 0.5}],
+            ... }
+            >>> Network.from_dict(doc).connections
+            (Connection(source=0, target=1, weight=0.5, enabled=True),)
+            >>> doc["connections"].append({"source": 0, "target": 9, "weight": 1.0})
+            >>> Network.from_dict(doc, where="my.json")
+            Traceback (most recent call last):
+            ...
+            neuroyard.core.errors.NetworkError: my.json: connection 1 (0 -> 9): target node 9 does not exist
+        """
+        return from_dict(doc, where)
+
+    def to_json(self) -> str:
+        """The network's JSON form as compact text (see :func:`dumps`).
+
+        Returns:
+            The JSON text of :meth:`to_dict` on one line, without spaces.
+
+        Example:
+            >>> from neuroyard import Network, Node
+            >>> Network((Node(0, "input"), Node(1, "output")), ()).to_json()[:60]
+            '{"format":"neuroyard-network","version":1,"mode":"feedforwar'
+        """
+        return dumps(self)
+
+    @classmethod
+    def from_json(cls, text: str, where: str = "network") -> Network:
+        """Parse and check a network's JSON text (see :func:`loads`).
+
+        Args:
+            text: the JSON form as text (:meth:`to_json` writes it).
+            where: what the text is, put at the start of every error message.
+
+        Returns:
+            The network, checked against every rule of the format.
+
+        Raises:
+            NetworkError: the text is not valid JSON (the message gives the line), or the
+                document is not a valid network (as in :meth:`from_dict`).
+
+        Example:
+            >>> from neuroyard import Connection, Network, Node
+            >>> net = Network((Node(0, "input"), Node(1, "output")), (Connection(0, 1, 0.5),))
+            >>> Network.from_json(net.to_json()) == net
+            True
+            >>> Network.from_json('{"nodes": [', where="pasted text")
+            Traceback (most recent call last):
+            ...
+            neuroyard.core.errors.NetworkError: pasted text: not valid JSON (Expecting value at line 1)
+        """
+        return loads(text, where)
+
+    @classmethod
+    def from_file(cls, path: str | os.PathLike[str]) -> Network:
+        """Read and check the network in a JSON file (UTF-8 text, as :meth:`to_json` writes).
+
+        Args:
+            path: the file's path.
+
+        Returns:
+            The network, checked against every rule of the format.
+
+        Raises:
+            NetworkError: the file cannot be read or is not UTF-8 text, or its content is
+                not a valid network (as in :meth:`from_json`); the one-line message starts
+                with ``network file PATH:``.
+
+        Example:
+            >>> import pathlib, tempfile
+            >>> from neuroyard import Connection, Network, NetworkError, Node
+            >>> net = Network((Node(0, "input"), Node(1, "output")), (Connection(0, 1, 0.5),))
+            >>> with tempfile.TemporaryDirectory() as folder:
+            ...     path = pathlib.Path(folder, "net.json")
+            ...     _ = path.write_text(net.to_json(), encoding="utf-8")
+            ...     print(Network.from_file(path) == net)
+            ...     try:
+            ...         Network.from_file(pathlib.Path(folder, "missing.json"))
+            ...     except NetworkError as error:
+            ...         print(str(error).replace(folder, "FOLDER"))
+            True
+            network file FOLDER/missing.json: cannot read it (No such file or directory)
+        """
+        where = f"network file {os.fspath(path)}"
+        try:
+            with open(path, encoding="utf-8") as file:
+                text = file.read()
+        except OSError as exc:
+            raise NetworkError(f"{where}: cannot read it ({exc.strerror or exc})") from None
+        except UnicodeDecodeError as exc:
+            raise NetworkError(
+                f"{where}: not UTF-8 text (byte {exc.start}: {exc.reason})"
+            ) from None
+        return loads(text, where)
 
 
 def with_weights(template: Network, rows: Iterable[Sequence[float]]) -> list[Network]:
@@ -453,10 +712,13 @@ def schema() -> dict[str, Any]:
 
 
 def dumps(network: Network) -> str:
+    """The JSON form of :func:`to_dict` as compact JSON text (one line, no spaces)."""
     return json.dumps(to_dict(network), separators=(",", ":"))
 
 
 def loads(text: str, where: str = "network") -> Network:
+    """Parse JSON text and read it as :func:`from_dict` does; text that is not JSON is a
+    :class:`NetworkError` naming the line, prefixed by ``where``."""
     try:
         doc = json.loads(text)
     except json.JSONDecodeError as exc:

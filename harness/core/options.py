@@ -48,16 +48,47 @@ def matches_default(default: Any, value: Any) -> bool:
 
 @dataclass(frozen=True)
 class Option:
-    """One setting of a task or an evolver.
+    """One setting of a task or an evolver, declared once: what it is and what is allowed.
 
-    ``low``/``high``: inclusive bounds; ``above``: an exclusive lower bound (``> above``);
-    ``choices``: the allowed values of a text option; numbers must also be finite.
-    ``kind``: the type when ``default`` is None (then ``nullable`` is implied).
-    ``unit``: of the value (``"s"``, ``"kg"``; empty for counts and plain numbers).
-    ``source``: where the default comes from (a paper and section, ``common practice``,
-    ``from memory`` or ``ours``). ``aliases``: former names that are still read.
-    ``digest_of``: the name of a path option; this option is then the SHA-256 (hex) of that
-    file's bytes, filled in on resolving (None while the path is None).
+    The type of the value is the type of ``default`` (``kind`` when the default is None):
+    an int may stand for a float (and becomes a float), a bool is never a number, a number
+    must be finite, and a value given as text for a non-text option is read as a TOML value
+    (``"3"`` is 3, ``"true"`` is True). An :class:`OptionTable` of options validates,
+    fills in defaults and lists them.
+
+    Args:
+        name: the option's name, as given (``population``, ``pole_length``).
+        default: the value when none is given; its type is the option's type. None makes
+            the option optional (then ``kind`` gives the type).
+        help: what the option means, in a phrase (shown by ``neuroyard tasks`` and
+            ``neuroyard evolvers``).
+        unit: the unit of the value (``"s"``, ``"kg"``); empty for counts and plain
+            numbers.
+        source: where the default comes from: a paper and section, ``common practice``,
+            ``from memory`` or ``ours``.
+        low: the smallest allowed value (inclusive), or None.
+        high: the largest allowed value (inclusive), or None.
+        above: an exclusive lower bound (the value must be ``> above``), or None.
+        choices: the allowed values of a text option; empty when any value of the type
+            within the bounds is allowed.
+        kind: the type when ``default`` is None (``str``, ``int``, ``float``, ``bool``).
+        aliases: former names of the option, still read (stored configurations use them).
+        digest_of: the name of a path option of the same table; this option then holds the
+            SHA-256 (64 hex digits) of that file's bytes, filled in on resolving (None while
+            the path is None), and a given digest the file no longer has is refused.
+
+    Example:
+        >>> from neuroyard import Option
+        >>> length = Option("length", 0.5, "half the pole's length", unit="m",
+        ...                 source="ours", above=0.0, high=10.0)
+        >>> length.type_name, length.rule
+        ('number', '> 0 and <= 10')
+        >>> length.check(2, "task demo-v1", "setting")  # an int stands for a float
+        2.0
+        >>> length.check(-1.0, "task demo-v1", "setting")
+        Traceback (most recent call last):
+        ...
+        neuroyard.core.errors.SettingError: task demo-v1: setting 'length' must be > 0 and <= 10, got -1.0
     """
 
     name: str
@@ -141,11 +172,40 @@ class Option:
 
 
 class OptionTable:
-    """The options of one owner (``"task xor-v2"``, ``"evolver neat"``), in declared order.
+    """The options of one owner (a task or an evolver), in declared order.
 
-    ``noun`` is the word errors use (``"setting"`` for tasks, ``"option"`` for evolvers),
-    ``error`` the exception they raise (a :class:`SettingError` unless the owner's layer has
-    its own, as tasks have :class:`~.errors.TaskError`)."""
+    It validates a given configuration and fills in the defaults (:meth:`resolve`), and
+    lists the options (:meth:`describe`). An evolver declares its table as a class
+    attribute, ``options = OptionTable("evolver NAME", [Option(...), ...])``, and resolves
+    the keyword arguments of its constructor with ``self.options.resolve(given)``; a task
+    declares a tuple of :class:`Option` and :class:`~neuroyard.tasks.base.Task` builds the
+    table.
+
+    Args:
+        owner: who has the options, at the start of every error message
+            (``"evolver neat"``, ``"task xor-v2"``).
+        options: the options, each name once; the order is the order of listings.
+        noun: the word for one option in error messages (``"option"`` for evolvers,
+            ``"setting"`` for tasks).
+        error: the exception class errors are raised as: :class:`SettingError` unless the
+            owner's layer has its own (tasks raise :class:`~.errors.TaskError`).
+
+    Example:
+        >>> from neuroyard import Option, OptionTable
+        >>> table = OptionTable("evolver demo", [
+        ...     Option("population", 50, "networks per generation", source="ours", low=2),
+        ...     Option("rate", 0.1, "chance that a weight mutates", source="ours",
+        ...            low=0.0, high=1.0, aliases=("mutation_rate",)),
+        ... ])
+        >>> table.resolve({"population": 20})
+        {'population': 20, 'rate': 0.1}
+        >>> table.resolve({"mutation_rate": "0.5"})  # a former name, a value as text
+        {'population': 50, 'rate': 0.5}
+        >>> table.resolve({"size": 20})
+        Traceback (most recent call last):
+        ...
+        neuroyard.core.errors.SettingError: evolver demo: unknown option 'size' (known: population, rate)
+    """
 
     def __init__(
         self,
@@ -184,7 +244,35 @@ class OptionTable:
         return self._aliases.get(name, name)
 
     def resolve(self, given: Mapping[str, Any] | None = None) -> dict[str, Any]:
-        """Every option with its value, given or default (see the module docstring)."""
+        """Validate a configuration and fill in the defaults (see the module docstring).
+
+        Args:
+            given: option names (current or former) mapped to values; None or empty gives
+                the defaults.
+
+        Returns:
+            Every option of the table, in declared order, under its current name, with its
+            value: the given one (checked and coerced) or the default; a ``digest_of``
+            option holds the digest of its file.
+
+        Raises:
+            SettingError: (or the table's ``error`` class) an unknown name, an option given
+                twice (under two names), a value of the wrong type or outside what is
+                allowed, or a file whose digest cannot be taken or has changed; the message
+                names the owner, the option, the value and what is allowed.
+
+        Example:
+            >>> from neuroyard import Option, OptionTable
+            >>> table = OptionTable("evolver demo", [Option("sigma", 0.5, above=0.0, aliases=("step",))])
+            >>> table.resolve()
+            {'sigma': 0.5}
+            >>> table.resolve({"step": 1})  # a former name; an int stands for a float
+            {'sigma': 1.0}
+            >>> table.resolve({"sigma": 1.0, "step": 2.0})
+            Traceback (most recent call last):
+            ...
+            neuroyard.core.errors.SettingError: evolver demo: option 'sigma' is given twice (as 'sigma' and 'step')
+        """
         values = self.defaults()
         seen: dict[str, str] = {}
         for key, raw in (given or {}).items():

@@ -22,6 +22,7 @@ import threading
 import time
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
+from functools import cached_property
 from pathlib import Path
 from typing import Any, NamedTuple
 
@@ -34,7 +35,8 @@ from neuroyard.execution.executors import Executor, make_executor
 from neuroyard.records.runs import RunRecord, RunSpec
 from neuroyard.records.shares import WHOLE, Share
 from neuroyard.records.store import ResultStore, owner_id
-from neuroyard.tasks import make
+from neuroyard.tasks import TaskSpec, make
+from neuroyard.tasks.registry import remember
 
 WAIT_FOR_OTHERS = 1.0  # s between looks at runs that other coordinators are running
 
@@ -46,11 +48,28 @@ class TaskChoice:
     id: str
     settings: dict[str, Any] = field(default_factory=dict)
 
-    def resolved(self, budget: int | None) -> tuple[dict[str, Any], int]:
-        """Every setting of the task (defaults merged, checked) and the effective budget:
-        ``budget``, or the task's default when None. Builds the task once to check them."""
-        task = make(self.id, **self.settings)
-        return dict(task.settings), budget if budget is not None else task.spec.default_budget
+    def resolve(self, budget: int | None) -> ResolvedTask:
+        """The choice in resolved values: builds the task once, which checks the settings
+        (a bad one is a :class:`~neuroyard.core.errors.TaskError`); ``budget`` None is the
+        task's default budget."""
+        spec = remember(make(self.id, **self.settings).spec)
+        return ResolvedTask(
+            self.id,
+            dict(spec.settings),
+            spec,
+            budget if budget is not None else spec.default_budget,
+        )
+
+
+@dataclass(frozen=True)
+class ResolvedTask:
+    """A task choice in resolved values: every setting (defaults merged, checked), the
+    task's spec under them and the effective budget (evaluations per run)."""
+
+    id: str
+    settings: dict[str, Any]
+    spec: TaskSpec
+    budget: int
 
 
 def plan_run(
@@ -63,14 +82,18 @@ def plan_run(
 ) -> RunSpec:
     """The spec of one run with resolved values (see :class:`RunSpec`): ``budget`` None is
     the task's default, ``settings`` are merged with the task's defaults."""
-    merged, effective = TaskChoice(task, dict(settings or {})).resolved(budget)
-    return RunSpec(evolver, task, run_index, campaign_seed, effective, merged)
+    resolved = TaskChoice(task, dict(settings or {})).resolve(budget)
+    return RunSpec(evolver, task, run_index, campaign_seed, resolved.budget, resolved.settings)
 
 
 @dataclass(frozen=True)
 class CampaignPlan:
     """What to run: every evolver on every task, ``runs`` times, from one campaign ``seed``;
-    ``budget`` None: each task's default budget."""
+    ``budget`` None: each task's default budget.
+
+    Each choice is resolved once per plan (:attr:`tasks_resolved`: each task built once;
+    each evolver's effective configuration computed once by its spec), and everything
+    else reads those: :meth:`describe`, :attr:`plan_hash`, :meth:`expand`."""
 
     evolvers: Sequence[EvolverSpec]
     tasks: Sequence[TaskChoice]
@@ -78,32 +101,42 @@ class CampaignPlan:
     seed: int
     budget: int | None = None
 
+    @cached_property
+    def tasks_resolved(self) -> tuple[ResolvedTask, ...]:
+        """Every task choice in resolved values, in the plan's order."""
+        return tuple(task.resolve(self.budget) for task in self.tasks)
+
+    def check(self) -> None:
+        """Fail before any run on a bad choice: build every evolver once (a bad option is
+        an :class:`~neuroyard.core.errors.EvolverError`) and resolve every task."""
+        for evolver in self.evolvers:
+            evolver.build()
+        self.tasks_resolved  # noqa: B018 - resolving checks the settings
+
     def expand(self) -> list[RunSpec]:
         """Every run, with resolved budget and settings (so its key is the same however
         the values were asked for)."""
-        resolved = [(task.id, *task.resolved(self.budget)) for task in self.tasks]
         return [
-            RunSpec(evolver, task, index, self.seed, budget, settings)
+            RunSpec(evolver, task.id, index, self.seed, task.budget, task.settings)
             for evolver in self.evolvers
-            for task, settings, budget in resolved
+            for task in self.tasks_resolved
             for index in range(self.runs)
         ]
 
     def describe(self) -> dict[str, Any]:
         """The plan in resolved values: effective evolver configurations, every task
         setting and each task's effective budget."""
-        tasks = []
-        for task in self.tasks:
-            settings, budget = task.resolved(self.budget)
-            tasks.append({"id": task.id, "settings": settings, "budget": budget})
         return {
             "evolvers": [{"name": e.name, "config": e.effective_config} for e in self.evolvers],
-            "tasks": tasks,
+            "tasks": [
+                {"id": t.id, "settings": t.settings, "budget": t.budget}
+                for t in self.tasks_resolved
+            ],
             "runs": self.runs,
             "seed": self.seed,
         }
 
-    @property
+    @cached_property
     def plan_hash(self) -> str:
         text = json.dumps(self.describe(), sort_keys=True, default=str)
         return hashlib.sha256(text.encode()).hexdigest()[:16]

@@ -45,3 +45,24 @@ def write(traceback_text: str, context: str = "") -> Path | None:
         except OSError:
             continue
     return None
+
+
+class InternalError(RuntimeError):
+    """A fault of neuroyard itself (not of the input, nor of an evolver), reported with the
+    crash log that holds its traceback. A campaign's runs that stop on one are not stored
+    and run again when the campaign resumes.
+
+    Args:
+        message: what went wrong, in one line.
+        crash_log: the file holding the traceback (None when no log could be written).
+
+    Example:
+        >>> import neuroyard
+        >>> error = neuroyard.InternalError("2 run(s) stopped on an internal error", None)
+        >>> error.crash_log is None, isinstance(error, neuroyard.NeuroyardError)
+        (True, False)
+    """
+
+    def __init__(self, message: str, crash_log: Path | None) -> None:
+        super().__init__(message)
+        self.crash_log = crash_log

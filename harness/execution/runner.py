@@ -41,11 +41,13 @@ from typing import Any, Protocol
 from neuroyard.core import jsonsafe
 from neuroyard.core.batch import CompiledBatch, compile_batch
 from neuroyard.core.compiled import fingerprint
+from neuroyard.core.defaults import MAX_BATCH
 from neuroyard.core.errors import NetworkError, ProcessEvolverError
-from neuroyard.core.evolver import MAX_BATCH, Evaluation, Outcome
+from neuroyard.core.evolver import Evaluation, Outcome
 from neuroyard.core.network import Network, to_dict
-from neuroyard.execution import calibration, provenance
+from neuroyard.execution import calibration
 from neuroyard.execution.seeds import evolver_seed, task_seed
+from neuroyard.records import provenance
 from neuroyard.records.runs import (
     FAILED,
     SOLVED,

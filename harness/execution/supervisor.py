@@ -35,14 +35,12 @@ from multiprocessing.connection import wait
 from typing import Any
 
 from neuroyard.core.child_process import exit_words
-from neuroyard.core.evolver import MAX_BATCH
+from neuroyard.core.defaults import DEFAULT_MEMORY_LIMIT_MB, DEFAULT_TIME_LIMIT, MAX_BATCH
 from neuroyard.execution import worker
 from neuroyard.execution.runner import call_label, new_record, run_one
 from neuroyard.records.runs import FAILED, RunRecord, RunSpec
 
 POLL = 0.2  # s between checks of the running calls' time (ours)
-DEFAULT_TIME_LIMIT = 60.0  # s per evolver call (ours: far above any reference evolver's call)
-DEFAULT_MEMORY_LIMIT_MB = 4096  # per run (ours: 20x a NEAT double-pole run)
 START_METHOD = "fork" if sys.platform.startswith("linux") else "spawn"
 
 

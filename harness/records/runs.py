@@ -20,7 +20,7 @@ BEHAVIOUR_SAMPLE = 500  # most behaviour descriptors a run record keeps
 BEHAVIOUR_DECIMALS = 3  # decimals a kept descriptor is rounded to (a picture, not identity)
 # Fields of a record that depend on the machine and the moment, not on the run: seconds
 # (``timing``), the host name and the versions of Python, the libraries and the checkout
-# (``versions``, :mod:`neuroyard.execution.provenance`).
+# (``versions``, :mod:`neuroyard.records.provenance`).
 MACHINE_FIELDS = frozenset({"timing", "host", "versions"})
 
 
@@ -112,6 +112,23 @@ class GenerationLog:
     the pole tasks the steps it balanced and, when it reached the horizon, its
     generalization score); empty when no network was tested. So a run that never solved
     shows how close its champions came.
+
+    Args:
+        generation: the generation's number (0-based).
+        evaluations: evaluations so far in the run, this generation's included.
+        best_fitness: the fitness of the generation's fittest network.
+        mean_fitness: the mean fitness of its networks.
+        best_hidden: hidden nodes of the fittest network.
+        best_connections: enabled connections of the fittest network.
+        stats: the evolver's own figures after this generation's ``tell()``.
+        champion_test: the success test of this generation (empty: no test).
+        non_finite_fitness: evaluations whose fitness was not finite.
+
+    Example:
+        >>> import neuroyard
+        >>> row = neuroyard.GenerationLog(0, 150, 3.2, 2.1, 0, 3, {"species": 4.0})
+        >>> row.stats["species"], row.champion_test
+        (4.0, {})
     """
 
     generation: int
@@ -139,6 +156,42 @@ class RunRecord:
     ``behaviours``: for a task with behaviour descriptors, a sample of the descriptors of
     the run's evaluations in evaluation order, evenly thinned to at most
     :data:`BEHAVIOUR_SAMPLE` points (:class:`BehaviourSample`); empty otherwise.
+
+    Args:
+        evolver: the evolver's name (entry point, ``module:attr`` or ``process:COMMAND``).
+        config: the options given (``--config``, ``--param``, ``params=``).
+        config_hash: 12 hex digits identifying the effective configuration.
+        task: the task id.
+        task_settings: every task setting, defaults included.
+        run_index: the run's index in its campaign (0-based).
+        campaign_seed: the campaign's seed.
+        seed: the evolver's seed, derived from the campaign seed, evolver, task and run.
+        task_seed: the task's seed, derived from the campaign seed, task and run.
+        budget: evaluations the run could spend.
+        status: ``solved``, ``unsolved`` (budget spent) or ``failed``.
+        failure: the reason of a failed run (None otherwise).
+        generations: generations made.
+        evaluations: evaluations made (success tests excluded).
+        success_evaluations: episodes the success tests ran.
+        best_fitness: the fitness of ``best_network``.
+        best_network: the solution, or the fittest network evaluated (the network format
+            as a dict: ``neuroyard.Network.from_dict``).
+        hidden_nodes: hidden nodes of ``best_network``.
+        connections: enabled connections of ``best_network``.
+        success_details: the details of ``best_network``'s success test.
+        evolver_settings: the evolver's ``settings()`` (effective configuration).
+        log: the generation log (:class:`GenerationLog`; empty when read without it).
+        timing: seconds: ``wall``, ``evolver``, ``harness``, ``kernel_load``, ``calibration``.
+        versions: versions of Python, numpy, numba, neuroyard and the git commit.
+        host: the machine's name.
+        task_facts: figures of the task instance.
+        behaviours: the sample of behaviour descriptors.
+
+    Example:
+        >>> import neuroyard
+        >>> record = neuroyard.RunRecord("rwg", {}, "0123456789ab", "xor-v2", {}, 0, 1, 7, 9, 500)
+        >>> record.status, record.solved, record.to_dict()["budget"]
+        ('unsolved', False, 500)
     """
 
     evolver: str

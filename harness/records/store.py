@@ -55,6 +55,7 @@ from pathlib import Path
 from typing import Any
 
 from neuroyard.core import jsonsafe
+from neuroyard.core.defaults import DEFAULT_PATH
 from neuroyard.core.errors import EvolverError, StoreError
 from neuroyard.core.evolver_registry import EvolverSpec, canonical_config
 from neuroyard.records.runs import GenerationLog, RunRecord, content_digest, record_key
@@ -62,7 +63,6 @@ from neuroyard.records.shares import WHOLE, Share
 
 SCHEMA_VERSION = 6
 READABLE_VERSIONS = tuple(str(v) for v in range(1, SCHEMA_VERSION + 1))  # older ones upgrade
-DEFAULT_PATH = Path("results") / "neuroyard.db"
 CLAIM_EXPIRY = 60.0  # s without a heartbeat after which a claim is void (ours)
 HEARTBEAT = 10.0  # s between a coordinator's refreshes of its claims (ours)
 MIN_FREE_BYTES = 1 << 20  # below this much free disk space a store counts as full (ours)

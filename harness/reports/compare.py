@@ -24,6 +24,7 @@ from collections.abc import Iterable, Sequence
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
+from neuroyard.core.defaults import COMPARE_ALPHA, COMPARE_POWER
 from neuroyard.core.errors import NeuroyardError
 from neuroyard.records.runs import RunRecord
 from neuroyard.reports.significance import (
@@ -38,8 +39,8 @@ from neuroyard.reports.significance import (
 from neuroyard.reports.stats import quartiles
 from neuroyard.tasks import declared_metrics
 
-ALPHA = 0.05  # significance level of a comparison (common practice)
-POWER = 0.8  # power for the runs-needed figure (common practice)
+ALPHA = COMPARE_ALPHA
+POWER = COMPARE_POWER
 
 
 @dataclass(frozen=True)
@@ -75,7 +76,23 @@ class TaskComparison:
 
 @dataclass(frozen=True)
 class Comparison:
-    """A whole comparison: side labels, level, and per task its rows."""
+    """A whole comparison (what :func:`neuroyard.compare` returns and ``neuroyard compare``
+    prints): side labels, level, and per task its rows (:class:`TaskComparison`, each
+    :class:`MetricRow` with its test, Holm-adjusted p-value and verdict).
+
+    Args:
+        a: side A's label (evolver, configuration hash, store).
+        b: side B's label.
+        alpha: the significance level after Holm's correction.
+        tasks: per task (and settings) both sides ran, its rows.
+        notes: what else a reader must know (tasks only one side ran).
+
+    Example:
+        >>> import neuroyard
+        >>> empty = neuroyard.Comparison("neat [1a2b3c]", "neat [4d5e6f]", 0.05, ())
+        >>> empty.to_json()["alpha"]
+        0.05
+    """
 
     a: str
     b: str

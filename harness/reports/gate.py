@@ -43,6 +43,13 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
 
+from neuroyard.core.defaults import (
+    CONNECTIONS_RISE,
+    EVALUATIONS_RISE,
+    GATE_ALPHA,
+    SPEED_DROP,
+    SUCCESS_DROP,
+)
 from neuroyard.records.runs import FAILED, SOLVED, RunRecord
 from neuroyard.reports.significance import (
     TestResult,
@@ -53,7 +60,7 @@ from neuroyard.reports.significance import (
 )
 from neuroyard.reports.stats import quartiles
 
-ALPHA = 0.05  # significance level after Holm's correction (ours: the common choice)
+ALPHA = GATE_ALPHA
 _TOLERANCE = 1e-9  # a change equal to its threshold counts (18/20 - 1 is -0.0999...)
 
 REGRESSION, IMPROVEMENT, SMALL, NO_CHANGE, NOT_TESTED = (
@@ -111,14 +118,28 @@ class RunFigures:
 
 @dataclass(frozen=True)
 class Thresholds:
-    """The smallest change that matters (ours): ``success_drop`` in success rate (a
-    fraction: 0.10 is 10 percentage points); ``evaluations_rise``, ``connections_rise``
-    and ``speed_drop`` as fractions of the baseline's median (0.20 is 20%)."""
+    """The smallest change that matters to the regression gate (ours); a significant change
+    below its threshold is only a *small change*.
 
-    success_drop: float = 0.10
-    evaluations_rise: float = 0.20
-    connections_rise: float = 0.20
-    speed_drop: float = 0.20
+    Args:
+        success_drop: in success rate, a fraction (0.10 is 10 percentage points).
+        evaluations_rise: of the median evaluations to solve, a fraction of the baseline's
+            (0.20 is 20%).
+        connections_rise: of the median enabled connections of the solutions, a fraction.
+        speed_drop: of the median relative speed (evaluations per calibration unit), a
+            fraction.
+
+    Example:
+        >>> import neuroyard
+        >>> strict = neuroyard.Thresholds(success_drop=0.05)
+        >>> strict.success_drop, strict.speed_drop
+        (0.05, 0.2)
+    """
+
+    success_drop: float = SUCCESS_DROP
+    evaluations_rise: float = EVALUATIONS_RISE
+    connections_rise: float = CONNECTIONS_RISE
+    speed_drop: float = SPEED_DROP
 
 
 DEFAULT_THRESHOLDS = Thresholds()

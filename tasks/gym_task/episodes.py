@@ -20,15 +20,18 @@ from __future__ import annotations
 
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
-import gymnasium as gym
 import numpy as np
-from gymnasium.vector import AutoresetMode, SyncVectorEnv
 
 from neuroyard.core.batch import CompiledBatch
 from neuroyard.core.compiled import CompiledNetwork, new_state
 
 from .interface import Interface, box_action, box_actions, discrete_action, discrete_actions
+
+if TYPE_CHECKING:  # for annotations only: gymnasium (~0.2 s to import) loads on use
+    import gymnasium as gym
+    from gymnasium.vector import SyncVectorEnv
 
 IDLE_SEED = 0  # seed of the episodes a slot without a job runs (their results are dropped)
 
@@ -72,6 +75,8 @@ def episode(env: gym.Env, face: Interface, net: CompiledNetwork, seed: int) -> E
 def vector_env(make_env: Callable[[], gym.Env], slots: int) -> SyncVectorEnv:
     """A vector environment of ``slots`` sub-environments built by ``make_env``, with
     autoreset disabled (:func:`episodes_in_slots` resets each slot itself)."""
+    from gymnasium.vector import AutoresetMode, SyncVectorEnv  # on use: see the top
+
     return SyncVectorEnv([make_env] * slots, copy=False, autoreset_mode=AutoresetMode.DISABLED)
 
 

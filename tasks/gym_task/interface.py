@@ -27,15 +27,18 @@ call (:func:`discrete_action`, :func:`box_action`); :func:`discrete_actions` and
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
-import gymnasium as gym
 import numba
 import numpy as np
-from gymnasium import spaces
 
 from neuroyard.core.batch import CompiledBatch, member
 from neuroyard.core.compiled import CompiledNetwork, reset, step
 from neuroyard.core.errors import TaskError
+
+if TYPE_CHECKING:  # for annotations only: the functions that read a space import gymnasium
+    import gymnasium as gym  # (~0.2 s) on use, so importing neuroyard.tasks stays light
+    from gymnasium import spaces
 
 SQUASH = "x / (1 + |x|)"
 
@@ -69,18 +72,24 @@ class Interface:
         """One observation as its flat vector (gymnasium's ``flatten`` for non-Box spaces)."""
         if self.box_observations:
             return np.asarray(observation).reshape(-1)
+        from gymnasium import spaces  # on use: see the imports at the top
+
         return np.asarray(spaces.flatten(self.observation_space, observation), dtype=np.float64)
 
     def flat_batch(self, observations: object, batch_space: spaces.Space, n: int) -> np.ndarray:
         """The observations of a vector environment's ``n`` slots as an (n, inputs) array."""
         if self.box_observations:
             return np.asarray(observations).reshape(n, -1)
-        items = gym.vector.utils.iterate(batch_space, observations)
+        from gymnasium.vector.utils import iterate  # on use: see the imports at the top
+
+        items = iterate(batch_space, observations)
         return np.stack([self.flat(item) for item in items])
 
 
 def interface(env_id: str, env: gym.Env) -> Interface:
     """The :class:`Interface` of ``env`` (a :class:`TaskError` names a space it cannot map)."""
+    from gymnasium import spaces  # on use: see the imports at the top
+
     observation_space = env.observation_space
     try:
         flat_space = spaces.flatten_space(observation_space)
@@ -140,6 +149,8 @@ def interface(env_id: str, env: gym.Env) -> Interface:
 
 def describe_observations(face: Interface, space: spaces.Space) -> tuple[str, ...]:
     """Each input in order, with its bounds and how it is scaled (for the spec)."""
+    from gymnasium import spaces  # on use: see the imports at the top
+
     flat = spaces.flatten_space(space)
     low, high = flat.low.reshape(-1), flat.high.reshape(-1)
     what = "" if isinstance(space, spaces.Box) else f" of {space} flattened by gymnasium"

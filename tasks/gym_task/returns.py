@@ -17,8 +17,10 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
+from typing import TYPE_CHECKING
 
-import gymnasium as gym
+if TYPE_CHECKING:  # for annotations only: importing gymnasium takes ~0.2 s
+    import gymnasium as gym
 
 # registered id -> per-step (lowest, highest) reward, from the unwrapped environment
 STEP_REWARDS: dict[str, Callable[[gym.Env], tuple[float, float]]] = {

@@ -36,9 +36,8 @@ from __future__ import annotations
 
 import math
 from functools import cached_property
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-import gymnasium as gym
 import numpy as np
 
 from neuroyard.core.batch import CompiledBatch, compile_batch
@@ -53,6 +52,9 @@ from ..registry import register, register_form
 from . import interface as io
 from .episodes import Episode, SlotRun, episode, episodes_in_slots, vector_env
 from .returns import return_bounds, step_reward_range
+
+if TYPE_CHECKING:  # for annotations only: gymnasium (~0.2 s to import) loads when a task is
+    import gymnasium as gym  # built (registered, make_env), so neuroyard.tasks stays light
 
 GYMNASIUM = (
     "Towers et al. (2024). Gymnasium: a standard interface for reinforcement learning "
@@ -109,6 +111,8 @@ def episode_seeds(task_seed: int, training: int, validation: int) -> tuple[list[
 
 def registered(env_id: str) -> gym.envs.registration.EnvSpec:
     """Gymnasium's registration of ``env_id`` (a :class:`TaskError` names an unknown id)."""
+    import gymnasium as gym  # on use: see the imports at the top
+
     try:
         return gym.spec(env_id)
     except gym.error.Error as exc:
@@ -204,6 +208,8 @@ class GymEnvTask(Task):
     def make_env(self) -> gym.Env:
         """A new instance of the task's environment (its time limit ``max_steps``); a
         :class:`TaskError` names an environment gymnasium cannot make."""
+        import gymnasium as gym  # on use: see the imports at the top
+
         env_id = self.settings["env"]
         try:
             return gym.make(

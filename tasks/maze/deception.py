@@ -32,8 +32,6 @@ from dataclasses import dataclass
 
 import numba
 import numpy as np
-from scipy.sparse import coo_matrix
-from scipy.sparse.csgraph import dijkstra
 
 from .mazefile import Maze
 from .robot import wall_distance
@@ -166,6 +164,11 @@ def _pass_heights(free: np.ndarray, dist: np.ndarray, goal: int) -> np.ndarray:
 def measure(maze: Maze, radius: float, goal_radius: float) -> Deception:
     """The deception figures of ``maze`` for a robot of ``radius`` that must end within
     ``goal_radius`` of the goal (see the module docstring)."""
+    # scipy loads here, on the first measurement: importing the tasks stays light (a task's
+    # figures usually come from the memo, .memo)
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import dijkstra
+
     free = free_cells(maze, radius)
     n = free.size
     start = _cell(free, maze.start[0], maze.start[1])

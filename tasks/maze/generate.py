@@ -37,6 +37,7 @@ from functools import lru_cache
 
 import numpy as np
 
+from . import memo
 from .deception import Deception, measure
 from .mazefile import Maze, arena_sides, wall_within
 
@@ -51,6 +52,7 @@ GOAL_OFF_MIDDLE = 5.0  # most the goal lies above or below the corridor's middle
 DEEPEST_END = 35.0  # height of the pocket side's lower end at t = 1
 LONGEST_GAP = 40.0  # width of the way into the top corridor at t = 1
 STEPS = 400  # from memory (reference/SOURCES.md: lehman2011; maze protocol)
+CHOICE = "maze-gen-v3 candidate"  # the memo's kind of entry: the index chosen
 
 
 def _placed(
@@ -114,13 +116,13 @@ def usable(maze: Maze, radius: float) -> bool:
     )
 
 
-@lru_cache(maxsize=64)
-def generated_maze(
+def nearest_candidate(
     size: float, seed: int, deception: float, radius: float, goal_radius: float
-) -> tuple[Maze, Deception]:
-    """The maze of ``size`` and ``seed`` whose deception score lies nearest ``deception``,
-    with its figures, for a robot of ``radius`` that must end within ``goal_radius``."""
-    best: tuple[float, int, Maze, Deception] | None = None
+) -> int:
+    """The index of the candidate of ``size`` and ``seed`` whose deception score lies nearest
+    ``deception`` (the first of equals), measuring every candidate for a robot of
+    ``radius`` that must end within ``goal_radius``."""
+    best: tuple[float, int] | None = None
     for k in range(CANDIDATES):
         maze = candidate(size, seed, k)
         if not usable(maze, radius):
@@ -130,7 +132,23 @@ def generated_maze(
             continue
         gap = abs(figures.deception - deception)
         if best is None or gap < best[0]:
-            best = (gap, k, maze, figures)
+            best = (gap, k)
     if best is None:
         raise AssertionError(f"maze-gen-v3 size={size:g} seed={seed}: no candidate is usable")
-    return best[2], best[3]
+    return best[1]
+
+
+@lru_cache(maxsize=64)
+def generated_maze(
+    size: float, seed: int, deception: float, radius: float, goal_radius: float
+) -> tuple[Maze, Deception]:
+    """The maze of ``size`` and ``seed`` whose deception score lies nearest ``deception``,
+    with its figures, for a robot of ``radius`` that must end within ``goal_radius``; the
+    choice and the figures come from the memo on disk when it holds them (:mod:`.memo`)."""
+    asked = [float(size), int(seed), float(deception), float(radius), float(goal_radius)]
+    k = memo.recall(CHOICE, asked)
+    if type(k) is not int or not 0 <= k < CANDIDATES:
+        k = nearest_candidate(size, seed, deception, radius, goal_radius)
+        memo.keep(CHOICE, asked, k)
+    maze = candidate(size, seed, k)
+    return maze, memo.measured(maze, radius, goal_radius)

@@ -14,7 +14,8 @@ follow (reference/SOURCES.md: lehman2011; maze robot; maze protocol). Fitness =
 diagonal (the publication's constant b_f has no stated value; ours), so fitness lies in
 [0, diagonal]. Solved: the robot ends within ``GOAL_RADIUS`` units of the goal. The
 behaviour descriptor of an evaluation is the final position (x, y). Every maze task's spec
-carries the maze's deception figures (:mod:`.deception`) as facts, kept in every run record.
+carries the maze's deception figures (:mod:`.deception`) as facts, kept in every run record;
+they are measured once and then read from a memo on disk (:mod:`.memo`).
 :meth:`MazeTask.replay` and :meth:`MazeTask.draw_run` draw the maze with a network's path
 and a run's final positions (:mod:`.picture`).
 """
@@ -39,8 +40,8 @@ from neuroyard.core.options import Option
 
 from ..base import Metric, SuccessCheck, Task, TaskSpec
 from ..registry import register, register_form, retire
-from . import picture
-from .deception import Deception, measure
+from . import memo, picture
+from .deception import Deception
 from .generate import CANDIDATES, generated_maze
 from .mazefile import Maze, load_maze, parse_maze
 from .robot import MAX_SPEED, MAX_TURN, N_INPUTS, RADIUS, RANGE, run_batch, run_episode
@@ -223,7 +224,7 @@ class MazeTask(Task):
 
 
 def _measured(maze: Maze) -> tuple[Maze, Deception]:
-    return maze, measure(maze, RADIUS, GOAL_RADIUS)
+    return maze, memo.measured(maze, RADIUS, GOAL_RADIUS)
 
 
 class ShippedMaze(MazeTask):

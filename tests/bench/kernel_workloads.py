@@ -26,7 +26,7 @@ from neuroyard.core.batch import CompiledBatch, compile_batch, compile_network
 from neuroyard.core.compiled import run_sequence
 from neuroyard.core.network import Connection, Network, Node
 from neuroyard.core.reference_activation import ReferenceNet
-from neuroyard.execution.provenance import versions
+from neuroyard.records.provenance import versions
 
 XOR_BATCH = 150  # networks per batch, issue 2 item 10
 RECURRENT_STEPS = 100_000

@@ -8,10 +8,10 @@ one fixture::
 
 ``assert_no_regression(baseline, workers=1)`` makes the baseline's runs again on ``workers``
 worker processes and compares them with the baseline as ``neuroyard check`` does
-(:mod:`.gate`); the test fails with the lines of the regressions, or with the one line
+(:func:`neuroyard.api.judging.check`); the test fails with the lines of the regressions, or with the one line
 that says what is wrong with the baseline file. A relative ``baseline`` path is taken from
-pytest's root folder (``rootdir``). It returns the :class:`~.gate.CheckResult` when nothing
-regressed.
+pytest's root folder (``rootdir``). It returns the
+:class:`~neuroyard.reports.baseline.CheckResult` when nothing regressed.
 
 The plugin imports nothing of neuroyard when pytest loads it: the gate (numpy, numba,
 scipy, the harness) is imported when the fixture is first called, so a test run that does
@@ -32,14 +32,14 @@ def assert_no_regression(request: pytest.FixtureRequest) -> Callable[..., Any]:
     """The check of a baseline, as a function of ``baseline`` (path) and ``workers``."""
 
     def check(baseline: str | Path, workers: int = 1) -> Any:
-        from neuroyard.cli import gate  # loaded on use, see the module docstring
+        from neuroyard.api.judging import check as check_baseline  # loaded on use, see above
         from neuroyard.core.errors import NeuroyardError
 
         path = Path(baseline)
         if not path.is_absolute():
             path = request.config.rootpath / path
         try:
-            result = gate.check(path, workers=workers, progress=False)
+            result = check_baseline(path, workers=workers, progress=False)
         except NeuroyardError as exc:
             pytest.fail(f"neuroyard: error: {exc}", pytrace=False)
         if result.regressions:

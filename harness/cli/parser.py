@@ -1,0 +1,354 @@
+"""The command line's arguments: every subcommand's parser, built without loading the
+library (only :mod:`argparse`, the defaults of :mod:`neuroyard.core.defaults` and the small
+:mod:`neuroyard.records.shares`), so ``neuroyard --help`` answers at once.
+
+Each subcommand's parser records in ``command`` the function that runs it, as
+``"module:function"`` under :mod:`neuroyard.cli`; :mod:`.main` imports that module only
+when the subcommand runs.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+from pathlib import Path
+from typing import Any, NoReturn
+
+from neuroyard.core.defaults import (
+    COMPARE_ALPHA,
+    CONNECTIONS_RISE,
+    DEFAULT_EVOLVER,
+    DEFAULT_MEMORY_LIMIT_MB,
+    DEFAULT_PATH,
+    DEFAULT_RUNS,
+    DEFAULT_SEED,
+    DEFAULT_TIME_LIMIT,
+    EVALUATIONS_RISE,
+    GATE_ALPHA,
+    MAX_BATCH,
+    QUICK_SUITE,
+    REPLAY_STEPS,
+    REPLAY_TASK,
+    SPEED_DROP,
+    SUCCESS_DROP,
+)
+from neuroyard.core.errors import NeuroyardError
+from neuroyard.records.shares import WHOLE, Share
+
+FORMATS_HELP = "text, markdown, json, html or an installed renderer"
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message: str) -> NoReturn:  # one line, no usage dump
+        raise NeuroyardError(f"{self.prog}: {message}")
+
+
+def _number(kind: type = int, minimum: float = 0, zero_is_none: bool = False) -> Any:
+    """An argparse type: a finite number of ``kind`` (int: a whole number) of at least
+    ``minimum``; with ``zero_is_none``, 0 stands for "no limit" and gives None."""
+    noun = "a whole number" if kind is int else "a number"
+
+    def parse(text: str) -> Any:
+        try:
+            value = kind(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"expected {noun}, got {text!r}") from None
+        if not minimum <= value < float("inf"):
+            lowest = "0 (no limit)" if zero_is_none else str(minimum)
+            raise argparse.ArgumentTypeError(f"must be at least {lowest}, got {text}")
+        return None if zero_is_none and value == 0 else value
+
+    return parse
+
+
+_positive, _seed, _percent = _number(minimum=1), _number(), _number(float)
+
+
+def _level(text: str) -> float:
+    """An argparse type: a significance level, a number strictly between 0 and 1."""
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
+    if not 0 < value < 1:
+        raise argparse.ArgumentTypeError(f"must lie strictly between 0 and 1, got {text}")
+    return value
+
+
+def _share(text: str) -> Share:
+    """An argparse type: K/N, job K of N."""
+    try:
+        return Share.parse(text)
+    except ValueError as exc:
+        raise argparse.ArgumentTypeError(str(exc)) from None
+
+
+def _assignment(text: str) -> tuple[str, Any]:
+    """KEY=VALUE with VALUE parsed as JSON when it is valid JSON (numbers, true/false), else a string."""
+    key, sep, raw = text.partition("=")
+    if not sep or not key:
+        raise argparse.ArgumentTypeError(f"expected KEY=VALUE, got {text!r}")
+    try:
+        value = json.loads(raw)
+    except json.JSONDecodeError:
+        value = raw
+    return key.strip(), value
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The whole command line."""
+    p = _Parser(prog="neuroyard", description="Benchmark neuroevolution algorithms honestly.")
+    sub = p.add_subparsers(dest="command_name", required=True, parser_class=_Parser)
+    for add in (_tasks, _evolvers, _run, _report, _export, _evaluate, _replay, _merge):
+        add(sub)
+    for add in (_compare, _baseline, _check):
+        add(sub)
+    return p
+
+
+def _command(parser: argparse.ArgumentParser, target: str) -> None:
+    parser.set_defaults(command=target)
+
+
+def _tasks(sub: Any) -> None:
+    t = sub.add_parser("tasks", help="list the tasks with interface, criteria, settings, sources")
+    t.add_argument(
+        "task", nargs="?", help="one task id or FORM:VALUE: also every setting with its source"
+    )
+    t.add_argument(
+        "--setting", type=_assignment, action="append", default=[], metavar="KEY=VALUE",
+        help="a setting of the one task (its spec and facts under that setting)",
+    )  # fmt: skip
+    t.add_argument("--format", choices=("text", "json"), default="text")
+    _command(t, "listing:tasks_command")
+
+
+def _evolvers(sub: Any) -> None:
+    e = sub.add_parser("evolvers", help="list the installed evolvers, or one with its options")
+    e.add_argument("evolver", nargs="?", help="an evolver name: every option with its source")
+    e.add_argument("--format", choices=("text", "json"), default="text")
+    _command(e, "listing:evolvers_command")
+
+
+def _run(sub: Any) -> None:
+    r = sub.add_parser("run", help="run a campaign into a results store")
+    r.add_argument(
+        "--evolver",
+        action="append",
+        help=f"evolver name, module:attr or process:COMMAND (default {DEFAULT_EVOLVER})",
+    )
+    r.add_argument(
+        "--task", action="append", help=f"task id, repeatable (default {', '.join(QUICK_SUITE)})"
+    )
+    r.add_argument("--runs", type=_positive, default=DEFAULT_RUNS, help="runs per evolver and task")
+    r.add_argument("--seed", type=_seed, default=DEFAULT_SEED, help="campaign seed")
+    r.add_argument("--budget", type=_positive, help="evaluations per run (default: the task's)")
+    r.add_argument("--store", type=Path, default=DEFAULT_PATH, help="results store file")
+    r.add_argument("--config", type=Path, help="evolver configuration TOML file")
+    r.add_argument(
+        "--param",
+        type=_assignment,
+        action="append",
+        default=[],
+        metavar="[EVOLVER:]KEY=VALUE",
+        help="evolver option; with EVOLVER: for that evolver only, else for every evolver "
+        "of the campaign that has it",
+    )
+    r.add_argument(
+        "--setting",
+        type=_assignment,
+        action="append",
+        default=[],
+        metavar="[TASK:]KEY=VALUE",
+        help="task setting; with TASK: for that task only, else for every task of the "
+        "campaign that has it",
+    )
+    r.add_argument("--workers", type=_positive, default=1, help="parallel worker processes")
+    r.add_argument(
+        "--share",
+        type=_share,
+        default=WHOLE,
+        metavar="K/N",
+        help="run only share K of N of the campaign (batch job K of N; see `neuroyard merge`)",
+    )
+    r.add_argument(
+        "--time-limit",
+        type=_number(float, zero_is_none=True),
+        default=DEFAULT_TIME_LIMIT,
+        metavar="SECONDS",
+        help=f"most seconds one evolver call may take (default {DEFAULT_TIME_LIMIT:g}; 0: none)",
+    )
+    r.add_argument(
+        "--memory-limit",
+        type=_number(int, zero_is_none=True),
+        default=DEFAULT_MEMORY_LIMIT_MB,
+        metavar="MB",
+        help="most megabytes a run may add to its worker process "
+        f"(default {DEFAULT_MEMORY_LIMIT_MB}; 0: none)",
+    )
+    r.add_argument(
+        "--max-batch",
+        type=_positive,
+        default=MAX_BATCH,
+        metavar="N",
+        help=f"most networks one ask() may return (default {MAX_BATCH:,})",
+    )
+    r.add_argument(
+        "--in-process",
+        action="store_true",
+        help="run in this process, one run at a time, with no time or memory limit (debugging)",
+    )
+    r.add_argument(
+        "--scheduler",
+        metavar="ADDRESS",
+        help="run on the Dask cluster whose scheduler is at ADDRESS (tcp://HOST:PORT); "
+        "the workers need neuroyard installed",
+    )
+    r.add_argument(
+        "--cluster",
+        choices=("local",),
+        help="local: start a Dask cluster of --workers processes on this machine (loopback "
+        "only) and run on it",
+    )
+    r.add_argument("--quiet", action="store_true", help="no progress bar and no report")
+    _command(r, "campaign_commands:run_command")
+
+
+def _report(sub: Any) -> None:
+    rp = sub.add_parser("report", help="summarise the runs in a store")
+    rp.add_argument(
+        "--store",
+        type=Path,
+        action="append",
+        help=f"results store; repeat it to report several together (default {DEFAULT_PATH})",
+    )
+    rp.add_argument("--format", default="text", help=FORMATS_HELP)
+    rp.add_argument(
+        "-o", "--output", type=Path, metavar="FILE", help="write the report to FILE, not stdout"
+    )
+    _command(rp, "campaign_commands:report_command")
+
+
+def _export(sub: Any) -> None:
+    e = sub.add_parser(
+        "export",
+        help="write the runs: JSON lines (every record), or CSV tables (one row per run or "
+        "per generation)",
+    )
+    e.add_argument("--store", type=Path, default=DEFAULT_PATH, help="results store file")
+    e.add_argument("--format", choices=("jsonl", "csv"), required=True)
+    e.add_argument(
+        "--table",
+        choices=("runs", "generations"),
+        default="runs",
+        help="with --format csv: one row per run (default) or per generation",
+    )
+    e.add_argument("-o", "--output", type=Path, metavar="FILE", help="write to FILE, not stdout")
+    _command(e, "campaign_commands:export_command")
+
+
+def _evaluate(sub: Any) -> None:
+    ev = sub.add_parser("evaluate", help="evaluate a network file on a task")
+    ev.add_argument("network", type=Path, help="network JSON file")
+    ev.add_argument("--task", required=True)
+    ev.add_argument("--setting", type=_assignment, action="append", default=[], metavar="KEY=VALUE")
+    _command(ev, "campaign_commands:evaluate_command")
+
+
+def _replay(sub: Any) -> None:
+    p = sub.add_parser("replay", help="run a network on its task and draw the episode")
+    source = p.add_mutually_exclusive_group(required=True)
+    source.add_argument(
+        "--store", type=Path, help="results store; replays the best network of --run"
+    )
+    source.add_argument("--network", type=Path, help="network JSON file")
+    p.add_argument("--task", default=REPLAY_TASK, help=f"task id (default {REPLAY_TASK})")
+    p.add_argument("--run", type=int, default=0, help="run index in the store (default 0)")
+    p.add_argument(
+        "--evolver",
+        metavar="EVOLVER[@HASH]",
+        help="whose run, where the store holds several evolver configurations on the task "
+        "(HASH: the start of the configuration hash the report prints)",
+    )
+    p.add_argument(
+        "--steps",
+        type=_positive,
+        default=REPLAY_STEPS,
+        help=f"most steps to replay (default {REPLAY_STEPS})",
+    )
+    p.add_argument("--out", type=Path, required=True, help="image file to write (PNG)")
+    _command(p, "replay:command")
+
+
+def _merge(sub: Any) -> None:
+    p = sub.add_parser(
+        "merge", help="combine the stores of one campaign's shares (batch jobs) into one"
+    )
+    p.add_argument("out", type=Path, metavar="OUT", help="store to merge into (created if missing)")
+    p.add_argument("stores", type=Path, nargs="+", metavar="STORE", help="stores to merge")
+    _command(p, "merge_command:command")
+
+
+def _compare(sub: Any) -> None:
+    p = sub.add_parser("compare", help="is B better than A? two configurations side by side")
+    p.add_argument("--store", type=Path, default=DEFAULT_PATH, help="store of side A (and B)")
+    p.add_argument("--store-b", type=Path, help="store of side B (default: --store)")
+    p.add_argument("--a", metavar="EVOLVER[@HASH]", help="side A (default: the only one there)")
+    p.add_argument("--b", metavar="EVOLVER[@HASH]", help="side B (default: the only one there)")
+    p.add_argument("--alpha", type=_level, default=COMPARE_ALPHA, help="significance level")
+    p.add_argument("--format", default="text", help=FORMATS_HELP)
+    p.add_argument("-o", "--output", type=Path, metavar="FILE", help="write to FILE, not stdout")
+    _command(p, "compare_command:command")
+
+
+def _baseline(sub: Any) -> None:
+    b = sub.add_parser("baseline", help="write a store's runs and figures as a baseline file")
+    b.add_argument("--store", type=Path, default=DEFAULT_PATH, help="results store file")
+    b.add_argument("-o", "--output", type=Path, required=True, help="baseline file to write")
+    _command(b, "gate:baseline_command")
+
+
+def _check(sub: Any) -> None:
+    c = sub.add_parser(
+        "check", help="compare a fresh campaign with a baseline; exit 1 on a regression"
+    )
+    c.add_argument("--baseline", type=Path, required=True, help="baseline file")
+    c.add_argument(
+        "--store", type=Path, help="read the fresh runs from this store instead of making them"
+    )
+    c.add_argument("--workers", type=_positive, default=1, help="parallel worker processes")
+    c.add_argument(
+        "--alpha",
+        type=_level,
+        default=GATE_ALPHA,
+        help=f"significance level after Holm's correction (default {GATE_ALPHA:g})",
+    )
+    c.add_argument(
+        "--success-drop",
+        type=_percent,
+        default=100 * SUCCESS_DROP,
+        metavar="POINTS",
+        help="smallest drop of the success rate that matters, in percentage points (default %(default)g)",
+    )
+    c.add_argument(
+        "--evaluations-rise",
+        type=_percent,
+        default=100 * EVALUATIONS_RISE,
+        metavar="PERCENT",
+        help="smallest rise of the median evaluations to solve that matters (default %(default)g%%)",
+    )
+    c.add_argument(
+        "--connections-rise",
+        type=_percent,
+        default=100 * CONNECTIONS_RISE,
+        metavar="PERCENT",
+        help="smallest rise of the median connections of solutions that matters (default %(default)g%%)",
+    )
+    c.add_argument(
+        "--speed-drop",
+        type=_percent,
+        default=100 * SPEED_DROP,
+        metavar="PERCENT",
+        help="smallest drop of the median relative speed that matters (default %(default)g%%)",
+    )
+    _command(c, "gate:check_command")
