@@ -26,9 +26,8 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-import cma
 import numpy as np
 
 from neuroyard.core.activations import NAMES
@@ -38,6 +37,9 @@ from neuroyard.core.network import Network, check, loads
 from neuroyard.core.options import Option, OptionTable
 
 from .weight_template import WeightTemplate, from_network, layered
+
+if TYPE_CHECKING:  # for annotations only: cma loads matplotlib and scipy.stats (~2 s), which
+    import cma  # listing the evolvers (neuroyard evolvers) need not pay: see _strategy
 
 OWNER = "evolver cmaes"
 # Options that shape a layered topology, and so mean nothing beside a network file.
@@ -170,6 +172,8 @@ class CmaEs:
     def _strategy(self, population: int | None) -> cma.CMAEvolutionStrategy:
         """A new strategy from the start point (with this run's noise) and ``population``
         (None: cma's default)."""
+        import cma  # on use: see the imports at the top
+
         spread = self.values["initial_spread"]
         x0 = self.template.start + self.rng.uniform(-spread, spread, self.template.n_weights)
         rng = self.rng
