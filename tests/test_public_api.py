@@ -164,3 +164,58 @@ def test_the_readmes_python_example_runs(tmp_path) -> None:
     assert ran.returncode == 0, ran.stderr
     assert "__main__:Guess" in ran.stdout and "neat" in ran.stdout
     assert (tmp_path / "results" / "neuroyard.db").exists()
+
+
+class NotebookGuess:
+    """A class as a notebook cell defines it: in ``__main__``, which has no file."""
+
+    def start(self, problem, seed):
+        self.rng, self.problem = __import__("numpy").random.default_rng(seed), problem
+
+    def ask(self):
+        p = self.problem
+        nodes = [neuroyard.Node(i, "input") for i in range(p.inputs)]
+        nodes.append(neuroyard.Node(p.inputs, "output", "sigmoid"))
+        links = [
+            neuroyard.Connection(i, p.inputs, float(self.rng.normal())) for i in range(p.inputs)
+        ]
+        return [neuroyard.Network(tuple(nodes), tuple(links))]
+
+    def tell(self, evaluations):
+        pass
+
+
+@pytest.fixture
+def in_a_notebook(monkeypatch):
+    """NotebookGuess placed in ``__main__`` as a notebook's class, ``__main__`` without a file."""
+    main = sys.modules["__main__"]
+    monkeypatch.setattr(NotebookGuess, "__module__", "__main__")
+    monkeypatch.setattr(main, "NotebookGuess", NotebookGuess, raising=False)
+    monkeypatch.delattr(main, "__file__", raising=False)
+    return NotebookGuess
+
+
+def test_a_notebook_class_reaches_forked_workers(tmp_path, in_a_notebook) -> None:
+    results = neuroyard.run(
+        in_a_notebook, "xor-v2", runs=2, budget=30, store=tmp_path / "n.db", workers=2,
+        progress=False,
+    )  # fmt: skip
+    assert [(r.evolver, r.status, r.evaluations) for r in results.records()] == [
+        ("__main__:NotebookGuess", "unsolved", 30)
+    ] * 2
+
+
+def test_under_spawn_a_notebook_class_is_refused_before_any_run(
+    tmp_path, in_a_notebook, monkeypatch
+) -> None:
+    from neuroyard.api import campaigns
+
+    monkeypatch.setattr(campaigns, "START_METHOD", "spawn")
+    with pytest.raises(EvolverError, match="defined in a notebook, which worker processes"):
+        neuroyard.run(in_a_notebook, "xor-v2", runs=1, budget=30, store=tmp_path / "n.db")
+    assert not (tmp_path / "n.db").exists()
+    results = neuroyard.run(  # in this process it runs
+        in_a_notebook, "xor-v2", runs=1, budget=30, store=tmp_path / "n.db",
+        executor="in-process", progress=False,
+    )  # fmt: skip
+    assert results.done == 1
