@@ -21,7 +21,8 @@ The public API, all of it importable from here (``neuroyard.__all__``)::
   :func:`open_store`, :class:`Results`, :class:`RunRecord`, :class:`GenerationLog`,
   :func:`evaluate` and :class:`NetworkEvaluation` (one network on one task);
 - **judging**: :func:`compare` (:class:`Comparison`), :func:`baseline` (:class:`Baseline`),
-  :func:`check` (:class:`CheckResult`, :class:`Thresholds`);
+  :func:`check` (:class:`CheckResult`, :class:`Thresholds`) and :func:`check_plan` (what
+  a check runs), :func:`verify` (:class:`VerifyResult`: do a store's solved claims hold);
 - **errors**: :class:`NeuroyardError` and its subclasses for bad input (one line that says
   what was wrong and where), :class:`InternalError` for a fault of neuroyard itself.
 
@@ -59,7 +60,11 @@ _PUBLIC: dict[str, tuple[str, str]] = {
     "GenerationLog": ("neuroyard.records.runs", "GenerationLog"),
     "evaluate": ("neuroyard.execution.evaluation", "evaluate"),
     "NetworkEvaluation": ("neuroyard.execution.evaluation", "NetworkEvaluation"),
-    **{name: ("neuroyard.api.judging", name) for name in ("compare", "baseline", "check")},
+    **{
+        name: ("neuroyard.api.judging", name)
+        for name in ("compare", "baseline", "check", "check_plan", "verify")
+    },
+    "VerifyResult": ("neuroyard.execution.verification", "VerifyResult"),
     "Comparison": ("neuroyard.reports.compare", "Comparison"),
     "Baseline": ("neuroyard.reports.baseline", "Baseline"),
     "CheckResult": ("neuroyard.reports.baseline", "CheckResult"),

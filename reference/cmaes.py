@@ -33,7 +33,7 @@ import numpy as np
 from neuroyard.core.activations import NAMES
 from neuroyard.core.errors import NeuroyardError, SettingError
 from neuroyard.core.evolver import Evaluation, Problem
-from neuroyard.core.network import Network, check, loads
+from neuroyard.core.network import Network, check
 from neuroyard.core.options import Option, OptionTable
 
 from .weight_template import WeightTemplate, from_network, layered
@@ -242,17 +242,10 @@ def _layer_widths(value: list[Any]) -> list[int]:
 
 
 def _read_network(path: str) -> Network:
-    """The network in file ``path``; a :class:`SettingError` naming the option and the file
-    when it cannot be read or is not a valid network."""
+    """The network in file ``path`` (:meth:`Network.from_file`: UTF-8, at most 64 MiB); a
+    :class:`SettingError` naming the option and the file when it cannot be read or is not a
+    valid network."""
     try:
-        with open(path, "rb") as fh:
-            data = fh.read()
-    except OSError as exc:
-        raise SettingError(
-            f"{OWNER}: option 'network': cannot read {path} ({exc.strerror})"
-        ) from None
-    try:
-        network = loads(data.decode("utf-8", errors="replace"), where=path)
+        return Network.from_file(path)
     except NeuroyardError as exc:
         raise SettingError(f"{OWNER}: option 'network': {exc}") from None
-    return network

@@ -94,6 +94,7 @@ RECURRENT_STEPS = Option(
     "network steps per pattern for a recurrent network (a feedforward one takes one)",
     source="ours (common practice: enough steps for a signal to cross a few hidden nodes)",
     low=1,
+    high=1_000,  # ours: a bound on one evaluation's work, 200 times the default
 )
 
 

@@ -254,11 +254,11 @@ class RaisesInStop(Healthy):
 
 class DiesInHarness:
     """Balances the single pole with a regulator (long evaluations: the harness's own code
-    runs for most of a generation) and, while the harness evaluates generation 0, ends its
-    process from a thread: outside any evolver call. With ``once`` it does so only while
-    the file ``marker`` does not exist (creating it), so the run's second attempt is
-    undisturbed; the supervisor must start the run again and store the same record as an
-    undisturbed run."""
+    runs for most of a generation) and, while the harness evaluates generation 0, kills the
+    worker (the parent of the evolver's own process) from a thread: the worker dies outside
+    any evolver call. With ``once`` it does so only while the file ``marker`` does not exist
+    (creating it), so the run's second attempt is undisturbed; the supervisor must start the
+    run again and store the same record as an undisturbed run."""
 
     def __init__(self, marker: str = "", once: bool = True) -> None:
         self.marker, self.once = marker, once
@@ -274,7 +274,7 @@ class DiesInHarness:
         if not (self.once and os.path.exists(self.marker)):
             if self.once:
                 open(self.marker, "w").close()
-            threading.Timer(0.1, os._exit, args=(7,)).start()
+            threading.Timer(0.1, os.kill, args=(os.getppid(), signal.SIGKILL)).start()
         return [self.network] * 10
 
     def tell(self, evaluations):

@@ -223,7 +223,9 @@ def test_the_in_process_mode_gives_the_records_of_the_workers(tmp_path, capsys):
         assert run_cli(capsys, *small_campaign(store, *extra))[0] == 0
         _, out, _ = run_cli(capsys, "export", "--store", str(store), "--format", "jsonl")
         lines = [strict(line) for line in out.splitlines()]
-        exports.append([{k: v for k, v in r.items() if k not in ("timing", "host")}
+        # the evolver ran in this process in one, in a process of its own in the other
+        assert {r["isolated"] for r in lines} == {name == "b.db"}
+        exports.append([{k: v for k, v in r.items() if k not in ("timing", "host", "isolated")}
                         for r in lines])  # fmt: skip
     assert exports[0] == exports[1]
 

@@ -52,9 +52,14 @@ def comparable(record) -> dict:
 
 
 def stored(path: Path) -> dict[tuple, dict]:
+    """Comparable records by run, apart from ``isolated``: whether the evolver ran in a
+    process of its own (not in-process) is the one thing the executors may change."""
     with ResultStore(path, write=False) as store:
         return {
-            (r.evolver, r.config_hash, r.task, r.run_index): comparable(r) for r in store.records()
+            (r.evolver, r.config_hash, r.task, r.run_index): {
+                k: v for k, v in comparable(r).items() if k != "isolated"
+            }
+            for r in store.records()
         }
 
 
@@ -81,7 +86,9 @@ def test_same_records_in_process_in_the_pool_and_on_a_cluster(tmp_path, cluster)
             executor = make_executor(name, 2, Limits())
         with ResultStore(path) as store:
             outcome = execute(PLAN, store, executor, progress=False)
+            isolated = {r.isolated for r in store.records(with_log=False)}
         assert outcome.done == len(PLAN.expand()) and outcome.internal_errors == 0
+        assert isolated == {name != "in-process"}
         runs[name] = stored(path)
     assert cluster.scheduler_address.startswith("tcp://127.0.0.1:")  # loopback only
     assert all(w.startswith("tcp://127.0.0.1:") for w in cluster.scheduler_info["workers"])
@@ -104,7 +111,7 @@ def _worker_running(client: distributed.Client, key: str, within: float = 20.0) 
 
 def test_a_worker_killed_mid_run_has_its_run_started_again_with_the_same_record(cluster):
     spec = plan_run(EvolverSpec("faulty_evolvers:Unhurried", {"pause": 0.05}), "xor-v2", 0, 3, 300)
-    undisturbed = run_one(spec)
+    undisturbed = run_one(spec, isolate=True)
     executor = DaskExecutor(distributed.Client(cluster), Limits())
     try:
         executor.submit(spec)
@@ -260,3 +267,34 @@ def test_the_readmes_batch_system_configuration_starts_workers_that_can_supervis
         assert cluster.scheduler_address in script
     finally:
         cluster.close()
+
+
+def test_ctrl_c_on_a_local_cluster_is_one_line_and_130_within_5_s(tmp_path):
+    # 20 tries, each interrupted at another moment: while the cluster starts, while the
+    # first runs are handed out, and well into the campaign. A terminal sends SIGINT to the
+    # whole foreground process group, and so does this test; the child must not inherit
+    # SIGINT ignored from a suite started in the background of a non-interactive shell.
+    neuroyard = str(Path(sys.executable).with_name("neuroyard"))
+    results = []
+    for k in range(20):
+        store = tmp_path / f"c{k}.db"
+        cmd = [neuroyard, "run", "--cluster", "local", "--workers", "2", "--runs", "30",
+               "--store", str(store)]  # fmt: skip
+        proc = subprocess.Popen(cmd, start_new_session=True, stdout=subprocess.PIPE,
+                                stderr=subprocess.PIPE, text=True,
+                                preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))  # fmt: skip
+        time.sleep(0.3 + 0.2 * k)
+        pressed = time.monotonic()
+        os.killpg(proc.pid, signal.SIGINT)
+        try:
+            _, err = proc.communicate(timeout=30)
+        except subprocess.TimeoutExpired:
+            os.killpg(proc.pid, signal.SIGKILL)
+            _, err = proc.communicate()
+        seconds = time.monotonic() - pressed
+        lines = [line for line in err.splitlines() if line.strip() and "%|" not in line]
+        results.append((k, proc.returncode, round(seconds, 2), lines))
+    bad = [r for r in results if r[1] != 130 or r[2] > 5.0 or r[3] != [
+        "neuroyard: interrupted; finished runs are kept in the store"
+    ]]  # fmt: skip
+    assert bad == []

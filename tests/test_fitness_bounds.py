@@ -23,7 +23,8 @@ from neuroyard.cli.main import main
 from neuroyard.core.activations import NAMES
 from neuroyard.core.batch import compile_network
 from neuroyard.core.network import Connection, Network, Node, dumps
-from neuroyard.execution.runner import RunFault, bound_fitness
+from neuroyard.execution.contract import RunFault
+from neuroyard.execution.runner import bound_fitness
 from neuroyard.tasks.maze import shipped_maze
 
 HUGE = 1e300

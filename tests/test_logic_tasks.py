@@ -233,7 +233,7 @@ def test_parity_3_ignoring_one_input_is_not_solved() -> None:
         ("parity-v2", {"bits": True}, "setting 'bits' must be a whole number, got True"),
         ("parity-v2", {"bits": 1}, "setting 'bits' must be within 2..12"),
         ("parity-v2", {"bits": 13}, "setting 'bits' must be within 2..12"),
-        ("xor-v2", {"recurrent_steps": 0}, "setting 'recurrent_steps' must be >= 1, got 0"),
+        ("xor-v2", {"recurrent_steps": 0}, "'recurrent_steps' must be within 1..1000, got 0"),
         ("xor-v2", {"recurrent_steps": 2.5}, "setting 'recurrent_steps' must be a whole number"),
     ],
 )

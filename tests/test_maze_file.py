@@ -75,5 +75,5 @@ def test_each_broken_rule_is_one_line_naming_file_and_entry(rule, text, message)
 
 def test_an_unreadable_file_is_named(tmp_path):
     missing = tmp_path / "none.toml"
-    with pytest.raises(TaskError, match="none.toml: cannot be read"):
+    with pytest.raises(TaskError, match="none.toml: cannot read it"):
         load_maze(missing, RADIUS)

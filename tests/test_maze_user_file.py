@@ -72,7 +72,7 @@ def test_a_broken_user_maze_is_one_line_and_exit_2(tmp_path, capsys):
     assert err.count("\n") == 1 and "entry 'bounds.width': must be above 0" in err
     assert not store.exists()  # nothing was written
     code, _, err = cli(capsys, "run", "--task", f"maze:{tmp_path / 'none.toml'}")
-    assert code == 2 and "cannot be read" in err
+    assert code == 2 and "cannot read it" in err
 
 
 def test_generated_maze_facts_in_the_listing_and_the_records(tmp_path, capsys):

@@ -141,29 +141,20 @@ def test_bad_input_is_one_line_and_leaves_the_store_as_it_was(store, call, error
     assert _digest(store) == before
 
 
-def test_a_class_the_workers_cannot_reach_is_refused_before_any_run(store) -> None:
+def test_a_class_defined_inside_a_function_runs_in_the_workers(tmp_path) -> None:
     def make_local():
-        class Local:
+        class Local(NotebookGuess):
             pass
 
         return Local
 
-    before = _digest(store)
-    with pytest.raises(EvolverError, match="worker processes cannot receive it"):
-        neuroyard.run(make_local(), store=store, budget=100, runs=1, progress=False)
-    assert _digest(store) == before
-
-
-def test_the_readmes_python_example_runs(tmp_path) -> None:
-    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text()
-    section = readme.split("## From Python", 1)[1]
-    code = section.split("```python\n", 1)[1].split("```", 1)[0]
-    ran = subprocess.run(
-        [sys.executable, "-c", code], cwd=tmp_path, capture_output=True, text=True, timeout=600
-    )
-    assert ran.returncode == 0, ran.stderr
-    assert "__main__:Guess" in ran.stdout and "neat" in ran.stdout
-    assert (tmp_path / "results" / "neuroyard.db").exists()
+    results = neuroyard.run(
+        make_local(), "xor-v2", runs=2, budget=30, store=tmp_path / "l.db", workers=2,
+        progress=False,
+    )  # fmt: skip
+    assert [(r.status, r.evaluations, r.isolated) for r in results.records()] == [
+        ("unsolved", 30, True)
+    ] * 2
 
 
 class NotebookGuess:
@@ -205,17 +196,16 @@ def test_a_notebook_class_reaches_forked_workers(tmp_path, in_a_notebook) -> Non
     ] * 2
 
 
-def test_under_spawn_a_notebook_class_is_refused_before_any_run(
-    tmp_path, in_a_notebook, monkeypatch
-) -> None:
-    from neuroyard.api import campaigns
+def test_under_spawn_a_notebook_class_reaches_the_workers_by_value(tmp_path, in_a_notebook) -> None:
+    from neuroyard.core.evolver_registry import EvolverSpec
+    from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
+    from neuroyard.execution.supervisor import Supervisor
+    from neuroyard.records.store import ResultStore
 
-    monkeypatch.setattr(campaigns, "START_METHOD", "spawn")
-    with pytest.raises(EvolverError, match="defined in a notebook, which worker processes"):
-        neuroyard.run(in_a_notebook, "xor-v2", runs=1, budget=30, store=tmp_path / "n.db")
-    assert not (tmp_path / "n.db").exists()
-    results = neuroyard.run(  # in this process it runs
-        in_a_notebook, "xor-v2", runs=1, budget=30, store=tmp_path / "n.db",
-        executor="in-process", progress=False,
-    )  # fmt: skip
-    assert results.done == 1
+    spec = EvolverSpec("__main__:NotebookGuess", {}, in_a_notebook)
+    plan = CampaignPlan([spec], [TaskChoice("xor-v2")], 1, 1, 30)
+    with ResultStore(tmp_path / "spawn.db") as store:
+        outcome = execute(plan, store, Supervisor(1, start_method="spawn"), progress=False)
+        (record,) = store.records()
+    assert outcome.done == 1 and outcome.internal_errors == 0
+    assert (record.status, record.evaluations, record.isolated) == ("unsolved", 30, True)

@@ -124,7 +124,7 @@ def test_a_digest_option_holds_the_named_files_sha256(tmp_path) -> None:
                        r"runs were planned \(sha256 [0-9a-f]{12}\.\.\., planned "
                        + digest[:12]):  # fmt: skip
         table.resolve({"file": str(path), "file_sha256": digest})
-    with pytest.raises(SettingError, match=r"none.bin: cannot be read \(No such file"):
+    with pytest.raises(SettingError, match=r"none.bin: cannot read it \(No such file"):
         table.resolve({"file": str(tmp_path / "none.bin")})
     with pytest.raises(SettingError, match="'file_sha256' is the digest of 'file' and cannot"):
         table.resolve({"file_sha256": digest})

@@ -11,20 +11,15 @@ is named ``module:qualname`` (``__main__:MyEvolver`` in a notebook or a script);
 runs are the same runs (the name is part of every run's key and seeds). A name given that
 way must not be an installed evolver's name nor start with ``process:``.
 
-Worker processes receive the class by reference (pickled as its module and qualified
-name) and look it up in their own copy of that module. On Linux they are forked from the
-calling process, so they inherit every class it has defined, a notebook's included. Under
-the ``spawn`` start method (the default on macOS and Windows) a worker imports the module
-afresh: a class defined in a notebook cannot be found there, and :func:`run` refuses it
-before any run starts (define it in a module, or use ``executor="in-process"``). A class
-that pickling cannot reach at all (defined inside a function) is refused the same way
-with every executor but ``in-process`` and ``dask`` (which ships classes by value).
+Workers receive such a class by value (pickled by cloudpickle, unpickled only in the
+evolver's own process), so a class defined in a notebook cell or inside a function runs in
+the workers whatever the start method (fork on Linux, spawn on macOS and Windows). A class
+found in an importable module is pickled by reference, and the evolver's process imports
+its module.
 """
 
 from __future__ import annotations
 
-import pickle
-import sys
 from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import Any
@@ -33,20 +28,24 @@ from neuroyard.core.defaults import (
     DEFAULT_EVOLVER,
     DEFAULT_MEMORY_LIMIT_MB,
     DEFAULT_PATH,
+    DEFAULT_RUN_LIMIT,
     DEFAULT_RUNS,
     DEFAULT_SEED,
     DEFAULT_TIME_LIMIT,
     MAX_BATCH,
+    MAX_MEMORY_LIMIT_MB,
+    MAX_SEED,
     QUICK_SUITE,
 )
 from neuroyard.core.errors import EvolverError, SettingError
-from neuroyard.core.evolver_registry import EvolverSpec, available, option_table, read_config
+from neuroyard.core.evolver_registry import EvolverSpec, available, read_config
 from neuroyard.core.options import distribute
 from neuroyard.core.process_evolver import PREFIX as PROCESS_PREFIX
 from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
 from neuroyard.execution.crashlog import InternalError
 from neuroyard.execution.executors import Executor, make_executor
-from neuroyard.execution.supervisor import START_METHOD, Limits
+from neuroyard.execution.resolution import declared_options
+from neuroyard.execution.supervisor import Limits
 from neuroyard.records.shares import WHOLE, Share
 from neuroyard.records.store import ResultStore
 from neuroyard.tasks.registry import parse_task, task_class
@@ -74,6 +73,7 @@ def run(
     time_limit: float | None = DEFAULT_TIME_LIMIT,
     memory_limit: int | None = DEFAULT_MEMORY_LIMIT_MB,
     max_batch: int = MAX_BATCH,
+    run_limit: float | None = DEFAULT_RUN_LIMIT,
     share: str | Share = WHOLE,
     progress: bool = True,
 ) -> Results:
@@ -92,7 +92,7 @@ def run(
         tasks: one task or a list: a task id (``neuroyard tasks``) or ``PREFIX:VALUE``
             (``maze:PATH``).
         runs: runs per evolver and task (at least 1).
-        seed: the campaign seed (0 or more); every run's seeds derive from it.
+        seed: the campaign seed, 0 to 2**63 - 1; every run's seeds derive from it.
         store: the results store file (created when missing).
         budget: evaluations per run; None: each task's default.
         workers: parallel worker processes (at least 1).
@@ -108,8 +108,11 @@ def run(
         scheduler: with ``executor="dask"``, the address of a running Dask scheduler
             (``tcp://HOST:PORT``); None starts a local cluster of ``workers`` processes.
         time_limit: most seconds one evolver call may take (None: no limit).
-        memory_limit: most megabytes a run may add to its worker process (None: no limit).
+        memory_limit: most megabytes a run may add to its worker process, at most 2**30
+            (None: no limit).
         max_batch: most networks one ``ask()`` may return.
+        run_limit: most seconds of wall time one run may take, evaluation included (None:
+            no limit).
         share: run only share ``K/N`` of the campaign (batch job K of N; see
             ``neuroyard merge``).
         progress: show a progress bar (after 3 s).
@@ -119,10 +122,10 @@ def run(
         (runs made now) and ``skipped`` (runs found in the store).
 
     Raises:
-        EvolverError: an unknown evolver, a bad option, or a class workers cannot reach.
+        EvolverError: an unknown evolver or a bad option.
         TaskError: an unknown task or a bad setting.
         SettingError: a bad value of another argument.
-        StoreError: a store that cannot be opened or written.
+        StoreError: a store that cannot be opened or written, or holds a broken record.
         InternalError: runs stopped on a fault of neuroyard itself (named crash log).
 
     Example:
@@ -152,13 +155,20 @@ def run(
         >>> results.done, [(r.status, r.evaluations) for r in results.records()]
         (2, [('unsolved', 100), ('unsolved', 100)])
     """
-    _check_numbers(runs=runs, seed=seed, budget=budget, workers=workers, max_batch=max_batch)
+    _check_numbers(
+        runs=runs,
+        seed=seed,
+        budget=budget,
+        workers=workers,
+        max_batch=max_batch,
+        memory_limit=memory_limit,
+    )
     if isinstance(share, str):
         try:
             share = Share.parse(share)
         except ValueError as exc:
             raise SettingError(f"run: share {share!r}: {exc}") from None
-    limits = Limits(time_limit, memory_limit, max_batch)
+    limits = Limits(time_limit, memory_limit, max_batch, run_limit)
     plan = CampaignPlan(
         _evolver_specs(evolvers, params or {}, config),
         _task_choices(tasks, settings or {}),
@@ -167,12 +177,9 @@ def run(
         budget,
     )
     plan.check()
-    if executor == "pool":
-        for spec in plan.evolvers:
-            _check_reachable(spec)
     made = _executor(executor, scheduler, workers, limits)  # before the store: a cluster
     try:  # that fails to start writes nothing
-        opened = ResultStore(store)
+        opened = _checked_store(store)
     except BaseException:
         made.close()
         raise
@@ -188,15 +195,32 @@ def run(
     return Results([store], keys, done=outcome.done, skipped=outcome.skipped)
 
 
+def _checked_store(path: str | Path) -> ResultStore:
+    """The store at ``path`` open for writing, once every run it holds has passed
+    :meth:`~neuroyard.records.store.ResultStore.check_records`: a campaign never adds to a
+    store whose records are broken (a :class:`StoreError` naming the run and the store)."""
+    opened = ResultStore(path)
+    try:
+        opened.check_records()
+    except BaseException:
+        opened.close()
+        raise
+    return opened
+
+
 def _check_numbers(**values: int | None) -> None:
-    """Whole numbers of at least 1 (``seed``: 0); ``budget`` may be None."""
+    """Whole numbers of at least 1 (``seed``: 0) and at most 2**63 - 1
+    (:data:`~neuroyard.core.defaults.MAX_SEED`; ``memory_limit``:
+    :data:`~neuroyard.core.defaults.MAX_MEMORY_LIMIT_MB`); ``budget`` and ``memory_limit``
+    may be None."""
     for name, value in values.items():
-        if name == "budget" and value is None:
+        if name in ("budget", "memory_limit") and value is None:
             continue
         lowest = 0 if name == "seed" else 1
-        if isinstance(value, bool) or not isinstance(value, int) or value < lowest:
+        highest = MAX_MEMORY_LIMIT_MB if name == "memory_limit" else MAX_SEED
+        if isinstance(value, bool) or not isinstance(value, int) or not lowest <= value <= highest:
             raise SettingError(
-                f"run: {name} must be a whole number of at least {lowest}, got {value!r}"
+                f"run: {name} must be a whole number from {lowest} to {highest}, got {value!r}"
             )
 
 
@@ -257,8 +281,7 @@ def _evolver_specs(
     if doubles:
         raise EvolverError(f"evolvers: {', '.join(doubles)} given twice")
     specs = [EvolverSpec(name, {}, factory) for name, factory in named]
-    tables = {spec.name: option_table(spec.load()) for spec in specs}
-    given = distribute(params.items(), tables, "param")
+    given = distribute(params.items(), declared_options(specs), "param")
     common = read_config(config) if isinstance(config, str | Path) else dict(config or {})
     return [EvolverSpec(s.name, {**common, **given[s.name]}, s.factory) for s in specs]
 
@@ -273,37 +296,6 @@ def _task_choices(tasks: str | Sequence[str], settings: Mapping[str, Any]) -> li
     return [
         TaskChoice(task_id, {**form, **chosen[text]}) for text, (task_id, form) in given.items()
     ]
-
-
-def _check_reachable(spec: EvolverSpec) -> None:
-    """Refuse a class that the pool's worker processes cannot receive (module docstring)."""
-    factory = spec.factory
-    if factory is None:
-        return
-    try:
-        same = pickle.loads(pickle.dumps(factory)) is factory
-    except (pickle.PicklingError, AttributeError, TypeError) as exc:
-        raise EvolverError(
-            f"evolver {spec.name!r}: worker processes cannot receive it ({exc}); define it "
-            "at the top level of a module, script or notebook cell, or use "
-            "executor='in-process'"
-        ) from None
-    if not same:
-        raise EvolverError(
-            f"evolver {spec.name!r}: {spec.name} now names another object (was the class "
-            "defined again after this one?); pass the current class"
-        )
-    main = sys.modules.get("__main__")
-    if (
-        START_METHOD != "fork"
-        and factory.__module__ == "__main__"
-        and not getattr(main, "__file__", None)
-    ):
-        raise EvolverError(
-            f"evolver {spec.name!r}: defined in a notebook, which worker processes started "
-            f"by {START_METHOD!r} cannot import; define it in a module, or use "
-            "executor='in-process'"
-        )
 
 
 def _executor(name: str, scheduler: str | None, workers: int, limits: Limits) -> Executor:

@@ -1,6 +1,7 @@
 """The judgements, for Python and for the command line: is B better than A
-(:func:`compare`), what did these runs give (:func:`baseline`), did anything regress since
-(:func:`check`). Each returns the data object the command line prints.
+(:func:`compare`), what did these runs give (:func:`baseline`), what would a check run
+(:func:`check_plan`), did anything regress since (:func:`check`), do a store's solved
+claims hold (:func:`verify`). Each returns the data object the command line prints.
 """
 
 from __future__ import annotations
@@ -15,6 +16,7 @@ from neuroyard.core.evolver_registry import EvolverSpec
 from neuroyard.execution.campaign import CampaignPlan, TaskChoice, execute
 from neuroyard.execution.crashlog import InternalError
 from neuroyard.execution.executors import make_executor
+from neuroyard.execution.verification import VerifyResult, verify_runs
 from neuroyard.records.runs import RunRecord, record_key
 from neuroyard.records.store import ResultStore
 from neuroyard.reports import gate
@@ -31,6 +33,7 @@ from neuroyard.reports.compare import compare as compare_runs
 from neuroyard.reports.gate import DEFAULT_THRESHOLDS, GroupRuns, RunFigures, Thresholds
 
 from .results import Results
+from .trust import PlannedEvolver, planned, refuse_untrusted
 
 Side = str | Results | None
 
@@ -133,11 +136,18 @@ def check(
     alpha: float = gate.ALPHA,
     thresholds: Thresholds = DEFAULT_THRESHOLDS,
     progress: bool = True,
+    trust_evolvers: bool = False,
 ) -> CheckResult:
     """Did anything regress? Make the baseline's runs again (same evolvers,
     configurations, tasks, settings, budgets, seeds and run indices) into a temporary store
     on ``workers`` supervised worker processes, or read them from ``store``, and compare
     them with the baseline group by group (:mod:`neuroyard.reports.gate`).
+
+    A baseline file names the code that making its runs again runs (:func:`check_plan`
+    says what): evolvers other than installed ones (``module:attr`` paths, which import a
+    module and call it, and ``process:COMMAND``, which runs a command) are run only with
+    ``trust_evolvers=True``; without it the check refuses before importing, building or
+    starting anything. Reading the fresh runs from ``store`` runs no evolver.
 
     Args:
         baseline: the baseline file's path, or a :class:`~neuroyard.reports.baseline.
@@ -148,13 +158,17 @@ def check(
         thresholds: the smallest changes that matter
             (:class:`~neuroyard.reports.gate.Thresholds`).
         progress: show a progress bar while re-running.
+        trust_evolvers: run the evolvers the baseline names even when they are not
+            installed ones (the caller has read the file and trusts it).
 
     Returns:
         The :class:`~neuroyard.reports.baseline.CheckResult`: ``regressions`` (one line
         each; empty when nothing regressed), ``findings`` and ``lines()``.
 
     Raises:
-        BaselineError: a baseline file that cannot be read, or input that does not fit it.
+        BaselineError: a baseline file that cannot be read, or input that does not fit it;
+            also (``UntrustedEvolverError``) a file that names evolvers other than
+            installed ones, without ``trust_evolvers``.
         StoreError: a store that cannot be read.
         InternalError: a fault of neuroyard while re-running.
 
@@ -163,10 +177,11 @@ def check(
         >>> result = neuroyard.check("tests/baseline.json", workers=2)  # doctest: +SKIP
         >>> assert not result.regressions, result.regressions  # doctest: +SKIP
     """
-    where = str(baseline) if not isinstance(baseline, Baseline) else "given"
-    read = baseline if isinstance(baseline, Baseline) else Baseline.read(baseline)
+    where, read = _read(baseline)
     groups = read.groups
     if store is None:
+        if not trust_evolvers:
+            refuse_untrusted(planned(read), where)
         fresh = _rerun(where, groups, workers, progress)
     else:
         with ResultStore(store, write=False) as opened:
@@ -182,6 +197,96 @@ def check(
             )
         )
     return CheckResult(gate.compare(compared, alpha, thresholds), notes, len(groups), alpha)
+
+
+def check_plan(
+    baseline: str | Path | Baseline, trust_evolvers: bool = False
+) -> tuple[PlannedEvolver, ...]:
+    """What :func:`check` runs when it makes a baseline's runs again: each group's evolver
+    (name and options as the file gives them) and the code its name runs. Loads, builds and
+    runs nothing.
+
+    Args:
+        baseline: the baseline file's path, or a :class:`~neuroyard.reports.baseline.
+            Baseline`.
+        trust_evolvers: as in :func:`check`: without it, a file naming evolvers other than
+            installed ones is refused here as :func:`check` would refuse it.
+
+    Returns:
+        One :class:`~neuroyard.api.trust.PlannedEvolver` per group (``evolver``,
+        ``config``, ``origin``: ``installed``, ``module``, ``process`` or ``unknown``,
+        ``needs_trust``, ``line()``).
+
+    Raises:
+        BaselineError: a baseline file that cannot be read; also
+            (``UntrustedEvolverError``) one that names evolvers other than installed ones,
+            without ``trust_evolvers``.
+
+    Example:
+        >>> import json, neuroyard
+        >>> group = {"evolver": "process:sh -c 'touch pwned'", "config": {},
+        ...          "config_hash": "0" * 12, "task": "xor-v2", "task_settings": {},
+        ...          "budget": 100, "campaign_seed": 1, "runs": 1, "run_figures": [
+        ...              {"run_index": 0, "status": "unsolved", "evaluations": 100,
+        ...               "generations": 1, "hidden_nodes": 0, "connections": 3,
+        ...               "relative_speed": None}]}
+        >>> with open("b.json", "w") as f:
+        ...     json.dump({"format": "neuroyard regression baseline", "format_version": 1,
+        ...                "environment": {}, "groups": [group]}, f)
+        >>> [p.origin for p in neuroyard.check_plan("b.json", trust_evolvers=True)]
+        ['process']
+        >>> neuroyard.check("b.json")
+        Traceback (most recent call last):
+        ...
+        neuroyard.api.trust.UntrustedEvolverError: baseline b.json: groups.0 (...) would run "process:sh -c 'touch pwned'", which runs the command "sh -c 'touch pwned'"; nothing was run: ...
+        >>> import os; os.path.exists("pwned")
+        False
+    """
+    where, read = _read(baseline)
+    evolvers = planned(read)
+    if not trust_evolvers:
+        refuse_untrusted(evolvers, where)
+    return evolvers
+
+
+def _read(baseline: str | Path | Baseline) -> tuple[str, Baseline]:
+    """(how errors name it, the baseline) of a baseline file's path or a Baseline."""
+    if isinstance(baseline, Baseline):
+        return "given", baseline
+    return str(baseline), Baseline.read(baseline)
+
+
+def verify(store: str | Path = DEFAULT_PATH) -> VerifyResult:
+    """Do a store's solved claims hold? Re-check every stored solved run as the
+    coordinator checks a run before storing it (:mod:`neuroyard.execution.verification`):
+    its best network, read by the harness's own path, passes the success test of its task
+    rebuilt from the record's task id, task seed and settings, and has the size the record
+    gives. For stores received from elsewhere; the store is opened read-only and no
+    evolver code runs. It shows that each solution solves the task its record names, under
+    the settings the record gives, not that those are the settings you meant (``neuroyard
+    report`` lists them).
+
+    Args:
+        store: the results store to re-check.
+
+    Returns:
+        A :class:`~neuroyard.execution.verification.VerifyResult`: ``solved`` (runs
+        re-checked), ``unverified`` (each run whose claim does not hold, or whose task
+        cannot be built here, with its reason), ``holds`` and ``lines()``.
+
+    Raises:
+        StoreError: a store that cannot be read.
+
+    Example:
+        >>> import neuroyard
+        >>> _ = neuroyard.run("hill-climber", "xor-v2", runs=2, seed=1, budget=5000,
+        ...                   store="runs.db", executor="in-process", progress=False)
+        >>> result = neuroyard.verify("runs.db")
+        >>> result.holds, result.lines()[-1]
+        (True, '... solved run(s) in runs.db hold on re-verification')
+    """
+    with ResultStore(store, write=False) as opened:
+        return verify_runs(opened.stored_runs(with_log=False), str(store))
 
 
 def group_plan(group: BaselineGroup) -> CampaignPlan:

@@ -56,6 +56,7 @@ def run_command(args: argparse.Namespace) -> None:
         time_limit=args.time_limit,
         memory_limit=args.memory_limit,
         max_batch=args.max_batch,
+        run_limit=args.run_limit,
         share=args.share,
         progress=not args.quiet,
     )

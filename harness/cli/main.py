@@ -20,14 +20,23 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from neuroyard.cli.parser import build_parser
+from neuroyard.core import interrupts
 from neuroyard.core.errors import NeuroyardError
 from neuroyard.execution import crashlog
 
 
 def _internal(message: str, crash_log: Path | None) -> int:
+    """Print the one line of an internal error (the first line of ``message``: the crash
+    log holds all of it) and give its exit status."""
     where = f"traceback in {crash_log}" if crash_log else "no crash log could be written"
-    print(f"neuroyard: internal error: {message} ({where})", file=sys.stderr)
+    first = message.strip().splitlines()[0] if message.strip() else "(no message)"
+    print(f"neuroyard: internal error: {first} ({where})", file=sys.stderr)
     return 3
+
+
+def _interrupted() -> int:
+    print("neuroyard: interrupted; finished runs are kept in the store", file=sys.stderr)
+    return 130
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -36,17 +45,18 @@ def main(argv: Sequence[str] | None = None) -> int:
         module, _, function = args.command.partition(":")
         command = getattr(importlib.import_module(f"neuroyard.cli.{module}"), function)
         status = command(args)
-    except NeuroyardError as exc:
-        print(f"neuroyard: error: {exc}", file=sys.stderr)
+    except NeuroyardError as exc:  # one line, whatever line breaks the message holds
+        print(f"neuroyard: error: {' '.join(str(exc).splitlines())}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
-        print("neuroyard: interrupted; finished runs are kept in the store", file=sys.stderr)
-        return 130
+        return _interrupted()
     except BrokenPipeError:
         return 0
     except crashlog.InternalError as exc:
         return _internal(str(exc), exc.crash_log)
     except Exception as exc:  # a bug: one line and a crash log, unless debugging
+        if interrupts.PRESSED.is_set():  # what a Ctrl-C turned into (an import's error)
+            return _interrupted()
         if os.environ.get("NEUROYARD_DEBUG"):
             raise
         log = crashlog.write(traceback.format_exc())

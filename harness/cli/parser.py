@@ -14,18 +14,22 @@ import json
 from pathlib import Path
 from typing import Any, NoReturn
 
+from neuroyard.core import jsonsafe
 from neuroyard.core.defaults import (
     COMPARE_ALPHA,
     CONNECTIONS_RISE,
     DEFAULT_EVOLVER,
     DEFAULT_MEMORY_LIMIT_MB,
     DEFAULT_PATH,
+    DEFAULT_RUN_LIMIT,
     DEFAULT_RUNS,
     DEFAULT_SEED,
     DEFAULT_TIME_LIMIT,
     EVALUATIONS_RISE,
     GATE_ALPHA,
     MAX_BATCH,
+    MAX_MEMORY_LIMIT_MB,
+    MAX_SEED,
     QUICK_SUITE,
     REPLAY_STEPS,
     REPLAY_TASK,
@@ -43,9 +47,12 @@ class _Parser(argparse.ArgumentParser):
         raise NeuroyardError(f"{self.prog}: {message}")
 
 
-def _number(kind: type = int, minimum: float = 0, zero_is_none: bool = False) -> Any:
-    """An argparse type: a finite number of ``kind`` (int: a whole number) of at least
-    ``minimum``; with ``zero_is_none``, 0 stands for "no limit" and gives None."""
+def _number(
+    kind: type = int, minimum: float = 0, zero_is_none: bool = False, maximum: int = MAX_SEED
+) -> Any:
+    """An argparse type: a finite number of ``kind`` (int: a whole number, at most
+    ``maximum``, by default 2**63 - 1, what a 64-bit integer holds) of at least ``minimum``;
+    with ``zero_is_none``, 0 stands for "no limit" and gives None."""
     noun = "a whole number" if kind is int else "a number"
 
     def parse(text: str) -> Any:
@@ -56,6 +63,8 @@ def _number(kind: type = int, minimum: float = 0, zero_is_none: bool = False) ->
         if not minimum <= value < float("inf"):
             lowest = "0 (no limit)" if zero_is_none else str(minimum)
             raise argparse.ArgumentTypeError(f"must be at least {lowest}, got {text}")
+        if kind is int and value > maximum:
+            raise argparse.ArgumentTypeError(f"must be at most {maximum}, got {text}")
         return None if zero_is_none and value == 0 else value
 
     return parse
@@ -84,14 +93,18 @@ def _share(text: str) -> Share:
 
 
 def _assignment(text: str) -> tuple[str, Any]:
-    """KEY=VALUE with VALUE parsed as JSON when it is valid JSON (numbers, true/false), else a string."""
+    """KEY=VALUE with VALUE parsed as JSON when it is valid JSON (numbers, true/false), else a
+    string; JSON nested more than 100 levels (:data:`~neuroyard.core.jsonsafe.MAX_DEPTH`) is
+    refused."""
     key, sep, raw = text.partition("=")
     if not sep or not key:
         raise argparse.ArgumentTypeError(f"expected KEY=VALUE, got {text!r}")
     try:
-        value = json.loads(raw)
+        value = jsonsafe.parse(raw)
     except json.JSONDecodeError:
         value = raw
+    except jsonsafe.TooDeep as exc:
+        raise argparse.ArgumentTypeError(f"{key.strip()}: {exc}") from None
     return key.strip(), value
 
 
@@ -101,7 +114,7 @@ def build_parser() -> argparse.ArgumentParser:
     sub = p.add_subparsers(dest="command_name", required=True, parser_class=_Parser)
     for add in (_tasks, _evolvers, _run, _report, _export, _evaluate, _replay, _merge):
         add(sub)
-    for add in (_compare, _baseline, _check):
+    for add in (_compare, _baseline, _check, _verify):
         add(sub)
     return p
 
@@ -141,7 +154,7 @@ def _run(sub: Any) -> None:
         "--task", action="append", help=f"task id, repeatable (default {', '.join(QUICK_SUITE)})"
     )
     r.add_argument("--runs", type=_positive, default=DEFAULT_RUNS, help="runs per evolver and task")
-    r.add_argument("--seed", type=_seed, default=DEFAULT_SEED, help="campaign seed")
+    r.add_argument("--seed", type=_seed, default=DEFAULT_SEED, help="campaign seed, 0 to 2**63 - 1")
     r.add_argument("--budget", type=_positive, help="evaluations per run (default: the task's)")
     r.add_argument("--store", type=Path, default=DEFAULT_PATH, help="results store file")
     r.add_argument("--config", type=Path, help="evolver configuration TOML file")
@@ -180,11 +193,19 @@ def _run(sub: Any) -> None:
     )
     r.add_argument(
         "--memory-limit",
-        type=_number(int, zero_is_none=True),
+        type=_number(int, zero_is_none=True, maximum=MAX_MEMORY_LIMIT_MB),
         default=DEFAULT_MEMORY_LIMIT_MB,
         metavar="MB",
         help="most megabytes a run may add to its worker process "
-        f"(default {DEFAULT_MEMORY_LIMIT_MB}; 0: none)",
+        f"(default {DEFAULT_MEMORY_LIMIT_MB}; 0: none; at most {MAX_MEMORY_LIMIT_MB:,})",
+    )
+    r.add_argument(
+        "--run-limit",
+        type=_number(float, zero_is_none=True),
+        default=DEFAULT_RUN_LIMIT,
+        metavar="SECONDS",
+        help="most seconds of wall time one run may take, evaluation included "
+        f"(default {DEFAULT_RUN_LIMIT:g}; 0: none)",
     )
     r.add_argument(
         "--max-batch",
@@ -351,4 +372,19 @@ def _check(sub: Any) -> None:
         metavar="PERCENT",
         help="smallest drop of the median relative speed that matters (default %(default)g%%)",
     )
+    c.add_argument(
+        "--trust-evolvers",
+        action="store_true",
+        help="run the evolvers the baseline names even when they are not installed ones "
+        "(module:attr imports and calls a module, process:COMMAND runs a command): only for "
+        "a file you have read and trust",
+    )
     _command(c, "gate:check_command")
+
+
+def _verify(sub: Any) -> None:
+    v = sub.add_parser(
+        "verify", help="re-check every solved run of a store; exit 1 when a claim does not hold"
+    )
+    v.add_argument("--store", type=Path, default=DEFAULT_PATH, help="results store file")
+    _command(v, "verify_command:command")

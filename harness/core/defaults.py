@@ -12,6 +12,8 @@ DEFAULT_EVOLVER = "neat"  # the best reference evolver on the quick suite
 QUICK_SUITE = ("xor-v2",)
 DEFAULT_RUNS = 10
 DEFAULT_SEED = 1
+# the largest campaign seed: SQLite's largest INTEGER (2**63 - 1), where the store keeps it
+MAX_SEED = 2**63 - 1
 
 # where results go (neuroyard.records.store)
 DEFAULT_PATH = Path("results") / "neuroyard.db"
@@ -19,6 +21,10 @@ DEFAULT_PATH = Path("results") / "neuroyard.db"
 # limits of a supervised run (neuroyard.execution.supervisor)
 DEFAULT_TIME_LIMIT = 60.0  # s per evolver call (ours: far above any reference evolver's call)
 DEFAULT_MEMORY_LIMIT_MB = 4096  # per run (ours: 20x a NEAT double-pole run)
+MAX_MEMORY_LIMIT_MB = 2**30  # the largest limit one may set, 1 PiB (ours: an OS limit fits it)
+# s of wall time per run, evaluation included (ours: about 4x the longest reference run, a
+# NEAT run on the non-Markov double pole: 64 min)
+DEFAULT_RUN_LIMIT = 14_400.0
 MAX_BATCH = 10_000  # networks per ask() unless a campaign allows more (a guard rail, ours)
 
 # judging (neuroyard.reports.compare, neuroyard.reports.gate)

@@ -57,7 +57,7 @@ class TaskError(NeuroyardError):
         ...     make_task("xor-v2", recurrent_steps=0)
         ... except TaskError as error:
         ...     print(error)
-        task xor-v2: setting 'recurrent_steps' must be >= 1, got 0
+        task xor-v2: setting 'recurrent_steps' must be within 1..1000, got 0
     """
 
 

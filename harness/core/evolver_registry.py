@@ -13,7 +13,7 @@ from __future__ import annotations
 import hashlib
 import importlib
 import json
-import tomllib
+import pickle
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from functools import cache, cached_property
@@ -23,6 +23,7 @@ from typing import Any
 
 from neuroyard.core.errors import EvolverError, SettingError
 from neuroyard.core.evolver import Evolver
+from neuroyard.core.inputfile import read_toml
 from neuroyard.core.options import OptionTable
 from neuroyard.core.process_evolver import PREFIX as PROCESS_PREFIX
 from neuroyard.core.process_evolver import command_factory
@@ -30,6 +31,7 @@ from neuroyard.core.process_evolver import command_factory
 ENTRY_POINT_GROUP = "neuroyard.evolvers"
 
 EvolverFactory = Callable[..., Evolver]
+REQUIRED = ("start", "ask", "tell")  # the methods every evolver has (.evolver.Evolver)
 
 
 @dataclass(frozen=True)
@@ -48,11 +50,26 @@ class EvolverSpec:
 
     name: str
     config: Mapping[str, Any] = field(default_factory=dict)
-    factory: EvolverFactory | None = field(default=None, compare=False, repr=False)
+    factory: EvolverFactory | bytes | None = field(default=None, compare=False, repr=False)
 
     def load(self) -> EvolverFactory:
-        """The factory: ``factory`` when given, else the one ``name`` finds."""
+        """The factory: ``factory`` when given (unpickled here when it arrived pickled),
+        else the one ``name`` finds."""
+        if isinstance(self.factory, bytes):
+            return pickle.loads(self.factory)
         return self.factory if self.factory is not None else load_factory(self.name)
+
+    def __getstate__(self) -> dict[str, Any]:
+        """What pickling sends (to a worker): the fields and the values computed from them,
+        with a factory given as a class pickled to bytes by cloudpickle, which carries a
+        class defined in a notebook or inside a function by value; only :meth:`load`, in
+        the evolver's own process, unpickles it, so a worker never imports evolver code."""
+        state = dict(self.__dict__)
+        if self.factory is not None and not isinstance(self.factory, bytes):
+            import cloudpickle  # on use: only an evolver given as a class needs it
+
+            state["factory"] = cloudpickle.dumps(self.factory)
+        return state
 
     @cached_property
     def effective_config(self) -> dict[str, Any]:
@@ -78,14 +95,24 @@ class EvolverSpec:
         return hashlib.sha256(text.encode()).hexdigest()[:12]
 
     def build(self) -> Evolver:
-        """Instantiate the evolver; configuration errors become :class:`EvolverError`."""
+        """Instantiate the evolver; configuration errors become :class:`EvolverError`, and
+        so does a factory that gives something without the methods of :data:`REQUIRED`
+        (``os:getcwd`` gives a string)."""
         factory = self.load()
         try:
-            return factory(**dict(self.config))
+            evolver = factory(**dict(self.config))
         except SettingError as exc:
             raise EvolverError(str(exc)) from None
         except (TypeError, ValueError) as exc:
             raise EvolverError(f"evolver {self.name!r}: bad configuration: {exc}") from None
+        missing = [name for name in REQUIRED if not callable(getattr(evolver, name, None))]
+        if missing:
+            raise EvolverError(
+                f"evolver {self.name!r}: building it gave an object of type "
+                f"{type(evolver).__name__}, not an evolver: it has no "
+                f"{', '.join(f'{name}()' for name in missing)}"
+            )
+        return evolver
 
 
 def option_table(factory: Any) -> OptionTable | None:
@@ -115,8 +142,31 @@ def _declared_options(name: str) -> OptionTable | None:
 
 
 def available() -> dict[str, str]:
-    """Entry-point names in ``neuroyard.evolvers`` mapped to their ``module:attr`` targets."""
+    """Entry-point names in ``neuroyard.evolvers`` mapped to their ``module:attr`` targets
+    (read once per process: scanning the installed distributions takes a few hundred
+    milliseconds, and every run looks its evolver up)."""
+    return dict(_entry_points())
+
+
+@cache
+def _entry_points() -> dict[str, str]:
     return {ep.name: ep.value for ep in entry_points(group=ENTRY_POINT_GROUP)}
+
+
+INSTALLED, MODULE, PROCESS, UNKNOWN = "installed", "module", "process", "unknown"
+
+
+def origin(name: str) -> str:
+    """Where evolver ``name`` takes its code from, found as :func:`load_factory` finds it
+    but without loading anything: ``process`` (``process:COMMAND``: the command is run),
+    ``installed`` (an entry-point name in ``neuroyard.evolvers``: code installed in this
+    environment), ``module`` (a ``module:attr`` path: the module is imported and the
+    attribute called) or ``unknown`` (no such name: loading it is an error)."""
+    if name.startswith(PROCESS_PREFIX):
+        return PROCESS
+    if name in available():
+        return INSTALLED
+    return MODULE if ":" in name else UNKNOWN
 
 
 def load_factory(name: str) -> EvolverFactory:
@@ -150,11 +200,6 @@ def load_factory(name: str) -> EvolverFactory:
 
 
 def read_config(path: str | Path) -> dict[str, Any]:
-    """Read an evolver configuration TOML file (a flat or nested table of settings)."""
-    try:
-        with open(path, "rb") as fh:
-            return tomllib.load(fh)
-    except OSError as exc:
-        raise EvolverError(f"config file {path}: cannot read it ({exc.strerror})") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise EvolverError(f"config file {path}: not valid TOML ({exc})") from None
+    """Read an evolver configuration TOML file (a flat or nested table of settings; UTF-8,
+    at most 64 MiB: :mod:`.inputfile`); an :class:`EvolverError` naming the file."""
+    return read_toml(path, f"config file {path}", EvolverError)

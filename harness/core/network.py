@@ -34,8 +34,10 @@ from dataclasses import dataclass, field
 from importlib import resources
 from typing import Any, Literal, NoReturn
 
+from neuroyard.core import jsonsafe
 from neuroyard.core.activations import CODES
 from neuroyard.core.errors import NetworkError
+from neuroyard.core.inputfile import read_text
 
 NodeKind = Literal["input", "bias", "hidden", "output"]
 Mode = Literal["feedforward", "recurrent"]
@@ -294,7 +296,8 @@ class Network:
             The network, checked against every rule of the format.
 
         Raises:
-            NetworkError: the text is not valid JSON (the message gives the line), or the
+            NetworkError: the text is not valid JSON (the message gives the line), nests
+                more than 100 levels (:data:`~neuroyard.core.jsonsafe.MAX_DEPTH`), or the
                 document is not a valid network (as in :meth:`from_dict`).
 
         Example:
@@ -311,7 +314,8 @@ class Network:
 
     @classmethod
     def from_file(cls, path: str | os.PathLike[str]) -> Network:
-        """Read and check the network in a JSON file (UTF-8 text, as :meth:`to_json` writes).
+        """Read and check the network in a JSON file (UTF-8 text, as :meth:`to_json` writes,
+        of at most 64 MiB: :data:`~neuroyard.core.inputfile.MAX_INPUT_BYTES`).
 
         Args:
             path: the file's path.
@@ -320,9 +324,9 @@ class Network:
             The network, checked against every rule of the format.
 
         Raises:
-            NetworkError: the file cannot be read or is not UTF-8 text, or its content is
-                not a valid network (as in :meth:`from_json`); the one-line message starts
-                with ``network file PATH:``.
+            NetworkError: the file cannot be read, is larger than 64 MiB or is not UTF-8
+                text, or its content is not a valid network (as in :meth:`from_json`); the
+                one-line message starts with ``network file PATH:``.
 
         Example:
             >>> import pathlib, tempfile
@@ -340,16 +344,7 @@ class Network:
             network file FOLDER/missing.json: cannot read it (No such file or directory)
         """
         where = f"network file {os.fspath(path)}"
-        try:
-            with open(path, encoding="utf-8") as file:
-                text = file.read()
-        except OSError as exc:
-            raise NetworkError(f"{where}: cannot read it ({exc.strerror or exc})") from None
-        except UnicodeDecodeError as exc:
-            raise NetworkError(
-                f"{where}: not UTF-8 text (byte {exc.start}: {exc.reason})"
-            ) from None
-        return loads(text, where)
+        return loads(read_text(path, where, NetworkError), where)
 
 
 def with_weights(template: Network, rows: Iterable[Sequence[float]]) -> list[Network]:
@@ -718,11 +713,14 @@ def dumps(network: Network) -> str:
 
 def loads(text: str, where: str = "network") -> Network:
     """Parse JSON text and read it as :func:`from_dict` does; text that is not JSON is a
-    :class:`NetworkError` naming the line, prefixed by ``where``."""
+    :class:`NetworkError` naming the line, prefixed by ``where``, and so is JSON nested more
+    than :data:`~neuroyard.core.jsonsafe.MAX_DEPTH` levels."""
     try:
-        doc = json.loads(text)
+        doc = jsonsafe.parse(text)
     except json.JSONDecodeError as exc:
         raise NetworkError(f"{where}: not valid JSON ({exc.msg} at line {exc.lineno})") from None
+    except jsonsafe.TooDeep as exc:
+        raise NetworkError(f"{where}: not valid JSON ({exc})") from None
     return from_dict(doc, where)
 
 

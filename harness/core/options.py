@@ -15,23 +15,32 @@ the source of its default. An :class:`OptionTable` of them is used for everythin
   key built from the resolved values changes when the file does, and a stored digest that
   no longer matches the file is refused.
 
-Types: an int may stand for a float (and becomes a float); a bool is never a number. A value
-given as text for a non-text option (``key=value`` on a command line or in a file) is read
-as a TOML value (``"3"`` -> 3, ``"true"`` -> True). An option renamed keeps its former names
-in ``aliases``, so stored configurations that use them still resolve.
+Types: an int may stand for a float (and becomes a float); a bool is never a number; a whole
+number must fit in 64 bits (within ``-2**63..2**63 - 1``, numpy's ``int64`` and SQLite's
+``INTEGER``), whatever the option's own range. A value given as text for a non-text option
+(``key=value`` on a command line or in a file) is read as a TOML value (``"3"`` -> 3,
+``"true"`` -> True). An option renamed keeps its former names in ``aliases``, so stored
+configurations that use them still resolve.
 """
 
 from __future__ import annotations
 
 import hashlib
 import math
+import sys
 import tomllib
-from collections.abc import Iterable, Iterator, Mapping
+from collections.abc import Container, Iterable, Iterator, Mapping
 from dataclasses import dataclass
-from pathlib import Path
 from typing import Any
 
+from neuroyard.core import jsonsafe
 from neuroyard.core.errors import SettingError
+from neuroyard.core.inputfile import read_bytes
+
+# the whole numbers an int option may hold, whatever its own range: a signed 64-bit integer
+# (numpy's int64, SQLite's INTEGER), which is where option values end up
+WHOLE_MIN, WHOLE_MAX = -(2**63), 2**63 - 1
+MAX_FLOAT = sys.float_info.max  # a larger int given for a float option has no float
 
 
 def matches_default(default: Any, value: Any) -> bool:
@@ -52,9 +61,10 @@ class Option:
 
     The type of the value is the type of ``default`` (``kind`` when the default is None):
     an int may stand for a float (and becomes a float), a bool is never a number, a number
-    must be finite, and a value given as text for a non-text option is read as a TOML value
-    (``"3"`` is 3, ``"true"`` is True). An :class:`OptionTable` of options validates,
-    fills in defaults and lists them.
+    must be finite, a whole number must fit in 64 bits (:data:`WHOLE_MIN` to
+    :data:`WHOLE_MAX`) whatever range the option allows, and a value given as text for a
+    non-text option is read as a TOML value (``"3"`` is 3, ``"true"`` is True). An
+    :class:`OptionTable` of options validates, fills in defaults and lists them.
 
     Args:
         name: the option's name, as given (``population``, ``pole_length``).
@@ -139,10 +149,17 @@ class Option:
         if not matches_default(example, value):
             raise error(f"{owner}: {noun} {self.name!r} must be a {self.type_name}, got {value!r}")
         if isinstance(example, float):
+            if not isinstance(value, float) and abs(value) > MAX_FLOAT:  # no float holds it
+                value = math.inf if value > 0 else -math.inf
             value = float(value)
         if not self._allowed(value):
             allowed = self.rule or "finite"
-            raise error(f"{owner}: {noun} {self.name!r} must be {allowed}, got {value!r}")
+            raise error(f"{owner}: {noun} {self.name!r} must be {allowed}, got {_shown(value)}")
+        if type(value) is int and not WHOLE_MIN <= value <= WHOLE_MAX:
+            raise error(
+                f"{owner}: {noun} {self.name!r} must fit in 64 bits (-2**63..2**63 - 1), "
+                f"got {_shown(value)}"
+            )
         return value
 
     def _allowed(self, value: Any) -> bool:
@@ -151,7 +168,7 @@ class Option:
         if isinstance(value, bool) or not isinstance(value, int | float):
             return True
         return (
-            math.isfinite(value)
+            (isinstance(value, int) or math.isfinite(value))
             and (self.above is None or value > self.above)
             and (self.low is None or value >= self.low)
             and (self.high is None or value <= self.high)
@@ -305,10 +322,7 @@ class OptionTable:
                 )
             return None
         where = f"{self.owner}: {self.noun} {option.digest_of!r}: {path}"
-        try:
-            found = hashlib.sha256(Path(path).read_bytes()).hexdigest()
-        except OSError as exc:
-            raise self.error(f"{where}: cannot be read ({exc.strerror})") from None
+        found = hashlib.sha256(read_bytes(path, where, self.error)).hexdigest()
         if given not in (None, found):
             raise self.error(
                 f"{where}: its content changed since the runs were planned "
@@ -327,21 +341,32 @@ class OptionTable:
         return [option.describe() for option in self._options.values()]
 
 
+def _shown(value: Any) -> str:
+    """A value as an error shows it: its ``repr``, or for a very long whole number its size
+    (Python refuses to convert an int of more than 4,300 digits to text)."""
+    if type(value) is int and value.bit_length() > 256:
+        return f"a whole number of {value.bit_length():,} bits"
+    return repr(value)
+
+
 def _parse_text(text: str) -> Any:
-    """A value given as text, read as a TOML value; the text itself when it is none."""
+    """A value given as text, read as a TOML value; the text itself when it is none (or
+    nests more than :data:`~.jsonsafe.MAX_DEPTH` levels)."""
     try:
-        return tomllib.loads(f"v = {text}")["v"]
-    except tomllib.TOMLDecodeError:
+        value = tomllib.loads(f"v = {text}")["v"]
+        jsonsafe.check_depth(value)
+    except (tomllib.TOMLDecodeError, RecursionError, jsonsafe.TooDeep):
         return text
+    return value
 
 
 def distribute(
     assignments: Iterable[tuple[str, Any]],
-    tables: Mapping[str, OptionTable | None],
+    tables: Mapping[str, Container[str] | None],
     flag: str,
 ) -> dict[str, dict[str, Any]]:
     """Share ``KEY=VALUE`` assignments out among owners (the tasks or evolvers of a campaign,
-    each with its option table, or None when it declares none).
+    each with its option table or the names of its options, or None when it declares none).
 
     ``OWNER:KEY`` goes to that owner only (an owner not in ``tables`` is an error); a plain
     ``KEY`` goes to every owner that has the option (and to every owner without a table,

@@ -5,7 +5,9 @@ where it stopped. A run's key is computed from resolved values (the effective bu
 every task setting, defaults merged), so asking for a default explicitly changes nothing.
 Runs execute on an executor (:mod:`.executors`: supervised worker processes, or this
 process for debugging); either way only this coordinator process writes to the store,
-one transaction per finished run. Several coordinators may run the same campaign on one
+one transaction per finished run, and re-verifies every solved claim before it stores it
+(:mod:`.verification`: one evaluation and one success test per solved run, here; a claim
+that does not hold fails the run). Several coordinators may run the same campaign on one
 store at once: they claim runs before starting them and so split the work. A batch job
 may run only a share of the plan (:mod:`~neuroyard.records.shares`) into a store
 of its own; ``neuroyard merge`` combines the shares' stores afterwards.
@@ -20,7 +22,7 @@ import signal
 import sqlite3
 import threading
 import time
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from functools import cached_property
 from pathlib import Path
@@ -28,10 +30,13 @@ from typing import Any, NamedTuple
 
 from tqdm import tqdm
 
+from neuroyard.core import interrupts
 from neuroyard.core.errors import StoreError
 from neuroyard.core.evolver_registry import EvolverSpec
 from neuroyard.execution import crashlog
 from neuroyard.execution.executors import Executor, make_executor
+from neuroyard.execution.resolution import resolve
+from neuroyard.execution.verification import verified
 from neuroyard.records.runs import RunRecord, RunSpec
 from neuroyard.records.shares import WHOLE, Share
 from neuroyard.records.store import ResultStore, owner_id
@@ -92,7 +97,8 @@ class CampaignPlan:
     ``budget`` None: each task's default budget.
 
     Each choice is resolved once per plan (:attr:`tasks_resolved`: each task built once;
-    each evolver's effective configuration computed once by its spec), and everything
+    each evolver's effective configuration computed once by its spec, in a child process
+    for an evolver from outside neuroyard's package: :mod:`.resolution`), and everything
     else reads those: :meth:`describe`, :attr:`plan_hash`, :meth:`expand`."""
 
     evolvers: Sequence[EvolverSpec]
@@ -106,11 +112,18 @@ class CampaignPlan:
         """Every task choice in resolved values, in the plan's order."""
         return tuple(task.resolve(self.budget) for task in self.tasks)
 
+    @cached_property
+    def evolvers_resolved(self) -> Sequence[EvolverSpec]:
+        """The evolvers, each with its effective configuration and hash computed (not
+        built; see :meth:`check`)."""
+        resolve(self.evolvers, build=False)
+        return self.evolvers
+
     def check(self) -> None:
         """Fail before any run on a bad choice: build every evolver once (a bad option is
-        an :class:`~neuroyard.core.errors.EvolverError`) and resolve every task."""
-        for evolver in self.evolvers:
-            evolver.build()
+        an :class:`~neuroyard.core.errors.EvolverError`; an evolver from outside
+        neuroyard's package is built in a child process) and resolve every task."""
+        resolve(self.evolvers, build=True)
         self.tasks_resolved  # noqa: B018 - resolving checks the settings
 
     def expand(self) -> list[RunSpec]:
@@ -118,7 +131,7 @@ class CampaignPlan:
         the values were asked for)."""
         return [
             RunSpec(evolver, task.id, index, self.seed, task.budget, task.settings)
-            for evolver in self.evolvers
+            for evolver in self.evolvers_resolved
             for task in self.tasks_resolved
             for index in range(self.runs)
         ]
@@ -127,7 +140,9 @@ class CampaignPlan:
         """The plan in resolved values: effective evolver configurations, every task
         setting and each task's effective budget."""
         return {
-            "evolvers": [{"name": e.name, "config": e.effective_config} for e in self.evolvers],
+            "evolvers": [
+                {"name": e.name, "config": e.effective_config} for e in self.evolvers_resolved
+            ],
             "tasks": [
                 {"id": t.id, "settings": t.settings, "budget": t.budget}
                 for t in self.tasks_resolved
@@ -183,17 +198,23 @@ def execute(
     running: set[str] = set()
     interrupted = False
     bar = tqdm(total=len(remaining), unit="run", delay=3.0, disable=not progress or not remaining)
+
+    def hand_out() -> None:
+        """Claim pending runs up to the executor's free capacity and submit them."""
+        claimed = store.claim(
+            [k for k in remaining if k not in running], owner, executor.capacity - len(running)
+        )
+        for key in claimed:
+            executor.submit(by_key[key])
+            running.add(key)
+
     try:
-        with store.keep_alive(owner):
+        with store.keep_alive(owner), _deferred_ctrl_c() as pressed:
             while remaining or running:
-                claimed = store.claim(
-                    [k for k in remaining if k not in running],
-                    owner,
-                    executor.capacity - len(running),
-                )
-                for key in claimed:
-                    executor.submit(by_key[key])
-                    running.add(key)
+                if pressed.is_set():
+                    pressed.clear()  # handled here, from now on
+                    raise KeyboardInterrupt
+                hand_out()
                 if not running:  # what is left is claimed by others: wait for them
                     finished = store.finished_keys()
                     remaining = [k for k in remaining if k not in finished]
@@ -202,27 +223,47 @@ def execute(
                         bar.set_postfix_str(f"{elsewhere} running in another process")
                         time.sleep(WAIT_FOR_OTHERS)
                     continue
-                for item in executor.collect(timeout=1.0):
+                over = executor.collect(timeout=1.0)
+                for item in over:
+                    running.discard(item.spec.key)
+                    remaining.remove(item.spec.key)
+                if over:  # the workers take their next runs while this process verifies
+                    hand_out()
+                for item in over:
                     key = item.spec.key
-                    running.discard(key)
-                    remaining.remove(key)
                     if item.record is None:
                         errors += 1
                         log = crashlog.write(item.error or "", f"run {key}")
                         crash_log = crash_log or log
                         store.release(owner, [key])
                         continue
-                    if store.save(key, campaign_id, item.record):
+                    record = verified(item.record, key)  # a solved claim, checked here
+                    if store.save(key, campaign_id, record):
                         done += 1
                     bar.update(1)
                     if on_record is not None:
-                        on_record(item.record)
+                        on_record(record)
     except KeyboardInterrupt:
         interrupted = True
         raise
     finally:
         _shut_down(executor, store, owner, bar, interrupted)
     return CampaignResult(done, skipped, errors, crash_log)
+
+
+@contextlib.contextmanager
+def _deferred_ctrl_c() -> Iterator[threading.Event]:
+    """While the block runs, a Ctrl-C (SIGINT) is only recorded, and the campaign's loop
+    raises KeyboardInterrupt at its next turn (at most a second later), where it is safe:
+    raised wherever the signal fell, it could land in a callback that drops it (numba's,
+    Dask's, an import lock's) and the campaign would go on. A Ctrl-C recorded before the
+    block (and perhaps dropped) counts too. See :mod:`neuroyard.core.interrupts`."""
+    previous = interrupts.install(interrupts.record_only)
+    try:
+        yield interrupts.PRESSED
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGINT, previous)
 
 
 def _shut_down(executor: Any, store: ResultStore, owner: str, bar: tqdm, interrupted: bool) -> None:

@@ -14,8 +14,9 @@ from typing import Any
 
 from neuroyard.core.batch import compile_network
 from neuroyard.core.network import Network, validate
-from neuroyard.execution.runner import RunFault, bound_fitness
-from neuroyard.tasks import make
+from neuroyard.execution.contract import RunFault
+from neuroyard.execution.runner import bound_fitness
+from neuroyard.tasks import Task, make
 from neuroyard.tasks.registry import parse_task
 
 
@@ -95,11 +96,22 @@ def evaluate(
     """
     task_id, form = parse_task(task)
     built = make(task_id, **form, **dict(settings or {}))
-    spec = built.spec
     where = "network"
     if not isinstance(network, Network):
         where = f"network file {network}"
         network = Network.from_file(network)
+    return evaluate_on(built, network, where)
+
+
+def evaluate_on(built: Task, network: Network, where: str = "network") -> NetworkEvaluation:
+    """Evaluate ``network`` once on the task ``built`` (built with its seed and settings)
+    and run the task's success test on it, as :func:`evaluate` does.
+
+    ``where`` names the network at the start of an error message. Raises
+    :class:`~neuroyard.core.errors.NetworkError` when the network breaks the format or
+    does not fit the task's inputs and outputs; a fitness outside the task's stated bounds
+    is a fault of the task (:class:`RuntimeError`)."""
+    spec = built.spec
     validate(network, spec.inputs, spec.outputs, where=where)
     compiled = compile_network(network)
     try:

@@ -35,17 +35,30 @@ from __future__ import annotations
 import json
 import math
 import time
-from collections.abc import Mapping, Sequence
+from collections.abc import Sequence
+from functools import partial
 from typing import Any, Protocol
 
-from neuroyard.core import jsonsafe
-from neuroyard.core.batch import CompiledBatch, compile_batch
+from neuroyard.core.batch import CompiledBatch, compile_flat
 from neuroyard.core.compiled import fingerprint
 from neuroyard.core.defaults import MAX_BATCH
 from neuroyard.core.errors import NetworkError, ProcessEvolverError
 from neuroyard.core.evolver import Evaluation, Outcome
-from neuroyard.core.network import Network, to_dict
+from neuroyard.core.flat import FlatBatch
+from neuroyard.core.network import to_dict
+from neuroyard.core.process_evolver import PREFIX as PROCESS_PREFIX
 from neuroyard.execution import calibration
+from neuroyard.execution.contract import (
+    RunFault,
+    call_label,
+    candidate_label,
+    checked_batch,
+    checked_settings,
+    checked_stats,
+    flat_batch,
+)
+from neuroyard.execution.evolver_host import OPTIONAL
+from neuroyard.execution.isolation import IsolatedEvolver, IsolatedFault
 from neuroyard.execution.seeds import evolver_seed, task_seed
 from neuroyard.records import provenance
 from neuroyard.records.runs import (
@@ -58,11 +71,6 @@ from neuroyard.records.runs import (
     RunSpec,
 )
 from neuroyard.tasks import Task, make
-
-
-class RunFault(Exception):
-    """The evolver broke the contract, or the task gave a fitness outside its stated bounds;
-    the message is the recorded reason of the failed run."""
 
 
 class Watch(Protocol):
@@ -88,11 +96,6 @@ class _Unwatched:
         pass
 
 
-def call_label(call: str, generation: int | None) -> str:
-    """``ask() in generation 3``, or the call alone before the first generation."""
-    return call if generation is None else f"{call} in generation {generation}"
-
-
 class _Clock:
     """Makes every evolver call: times it, tells the watch, turns a fault into a RunFault."""
 
@@ -109,13 +112,15 @@ class _Clock:
             return fn(*args)
         except RunFault:
             raise
+        except IsolatedFault as fault:  # the evolver's own process failed the call
+            raise RunFault(fault.reason(call_label(what, generation), self.memory_note)) from None
         except ProcessEvolverError as exc:  # an evolver process's fault, already in words
             raise RunFault(f"{call_label(what, generation)}: {exc}") from None
         except MemoryError:
             raise RunFault(
                 f"{call_label(what, generation)} ran out of memory{self.memory_note}"
             ) from None
-        except (Exception, SystemExit) as exc:  # a plugin fault ends the run, not the campaign
+        except (Exception, SystemExit, KeyboardInterrupt) as exc:  # a plugin fault ends its run
             raise RunFault(
                 f"{call_label(what, generation)} raised {type(exc).__name__}: {exc}"
             ) from exc
@@ -124,31 +129,14 @@ class _Clock:
             self.seconds += time.perf_counter() - start
 
 
-def _asked(evolver: Any, generation: int, max_batch: int) -> list[Network]:
-    """The evolver's next batch, checked (see :func:`_checked_batch`)."""
-    return _checked_batch(evolver.ask(), generation, max_batch)
-
-
-def _checked_batch(batch: Any, generation: int, max_batch: int) -> list[Network]:
-    """The evolver's batch as a list of Network; anything else is a fault that ends the run."""
-    if not isinstance(batch, Sequence) or isinstance(batch, str | bytes):
-        raise RunFault(
-            f"ask() in generation {generation} returned {type(batch).__name__}, "
-            "expected a list of Network"
-        )
-    if len(batch) == 0:
-        raise RunFault(f"ask() returned an empty batch in generation {generation}")
-    if len(batch) > max_batch:
-        raise RunFault(
-            f"ask() returned {len(batch):,} networks in generation {generation}, more than "
-            f"the batch limit of {max_batch:,}"
-        )
-    for k, net in enumerate(batch):
-        if not isinstance(net, Network):
-            raise RunFault(
-                f"candidate {k} of generation {generation} is a {type(net).__name__}, not a Network"
-            )
-    return list(batch)
+def _asked(evolver: Any, generation: int, max_batch: int, inputs: int, outputs: int) -> FlatBatch:
+    """The next batch of an evolver in this process, checked and read into flat arrays
+    (:mod:`.contract`); reading it runs the evolver's code (its sequence, its networks),
+    so this runs inside the watched call."""
+    if isinstance(evolver, IsolatedEvolver):
+        return evolver.ask_flat(generation)
+    batch = checked_batch(evolver.ask(), generation, max_batch)
+    return flat_batch(batch, inputs, outputs, generation)
 
 
 def bound_fitness(
@@ -214,29 +202,47 @@ def run_one(
     watch: Watch | None = None,
     max_batch: int = MAX_BATCH,
     memory_limit_mb: int | None = None,
+    time_limit: float | None = None,
+    isolate: bool = False,
 ) -> RunRecord:
     """Execute one run (see module docstring). Never raises for evolver faults.
 
     ``watch`` is told of every evolver call (a supervisor bounds their time); ``max_batch``
     is the most networks one ``ask()`` may return; ``memory_limit_mb``, when the process
-    runs under a memory limit, is named in the reason of a run that ran out of memory."""
+    runs under a memory limit, is named in the reason of a run that ran out of memory.
+    ``isolate``: run a Python evolver in a process of its own (:mod:`.isolation`), each of
+    its replies within ``time_limit`` seconds (None: no limit) and its process within
+    ``memory_limit_mb``; a ``process:`` evolver is a process of its own already. Without
+    it the evolver runs in this process, and the record says it was not isolated."""
     calibration_seconds = calibration.seconds()  # once per process, before the run's clock
     wall_start = time.perf_counter()
     record = new_record(spec)
     task = make(spec.task, record.task_seed, **spec.task_settings)  # once per run
     kernel_load = load_kernels(task)
     record.task_facts = dict(task.spec.facts)
+    isolated = isolate and not spec.evolver.name.startswith(PROCESS_PREFIX)
+    record.isolated = isolate
     budget = record.budget
     seed = record.seed
     clock = _Clock(watch or _Unwatched(), memory_limit_mb)
     evolver = None
     behaviours = BehaviourSample()
     try:
-        evolver = clock.call("building the evolver", None, spec.evolver.build)
-        clock.call("start()", None, evolver.start, task.problem(budget), seed)
-        if hasattr(evolver, "settings"):
-            record.evolver_settings = _settings(evolver, clock)
-        _generations(evolver, task, budget, record, clock, max_batch, behaviours)
+        if isolated:
+            build = partial(IsolatedEvolver, spec.evolver, time_limit, memory_limit_mb, max_batch)
+        else:
+            build = spec.evolver.build
+        evolver = clock.call("building the evolver", None, build)
+        offers = _offers(evolver)
+        problem = task.problem(budget)
+        if isolated:
+            clock.call("start()", None, evolver.start, problem, seed, max_batch)
+        else:
+            clock.call("start()", None, evolver.start, problem, seed)
+        if "settings" in offers:
+            settings = clock.call("settings()", None, evolver.settings)
+            record.evolver_settings = checked_settings(settings)
+        _generations(evolver, offers, task, budget, record, clock, max_batch, behaviours)
     except RunFault as fault:
         record.status = FAILED
         record.failure = str(fault)
@@ -246,9 +252,13 @@ def run_one(
             "the run ran out of memory while the harness evaluated generation "
             f"{record.generations}{clock.memory_note}"
         )
-    record.behaviours = behaviours.points
-    if evolver is not None and hasattr(evolver, "stop"):
-        _stop(evolver, clock, record)
+    finally:
+        record.behaviours = behaviours.points
+        if evolver is not None:
+            if "stop" in _offers(evolver):
+                _stop(evolver, clock, record)
+            if isinstance(evolver, IsolatedEvolver):
+                evolver.end()
     wall = time.perf_counter() - wall_start
     record.timing = {
         "wall": wall,
@@ -260,8 +270,16 @@ def run_one(
     return record
 
 
+def _offers(evolver: Any) -> set[str]:
+    """The optional methods of the contract the evolver has."""
+    if isinstance(evolver, IsolatedEvolver):
+        return evolver.optional
+    return {name for name in OPTIONAL if hasattr(evolver, name)}
+
+
 def _generations(
     evolver: Any,
+    offers: set[str],
     task: Any,
     budget: int,
     record: RunRecord,
@@ -277,14 +295,14 @@ def _generations(
         generation = record.generations
         # checked inside the watched call: a batch is the evolver's object, and reading it
         # (its length, its items) runs the evolver's code, which the time limit bounds
-        batch = clock.call("ask()", generation, _asked, evolver, generation, max_batch)
-        batch = batch[: budget - record.evaluations]  # never evaluate past the budget
+        batch = clock.call(
+            "ask()", generation, _asked, evolver, generation, max_batch,
+            task_spec.inputs, task_spec.outputs,
+        )  # fmt: skip
+        batch = batch.head(budget - record.evaluations)  # never evaluate past the budget
         try:
-            compiled = compile_batch(
-                batch,
-                task_spec.inputs,
-                task_spec.outputs,
-                f"candidate {{}} of generation {generation}".format,
+            compiled = compile_flat(
+                batch, task_spec.inputs, task_spec.outputs, candidate_label(generation)
             )
         except NetworkError as exc:
             raise RunFault(f"invalid network: {exc}") from None
@@ -298,7 +316,7 @@ def _generations(
         if task_spec.behaviour_size:  # no call per evaluation for tasks without behaviour
             for result in results:
                 behaviours.add(result.behaviour)
-        record.evaluations += len(batch)
+        record.evaluations += batch.size
         record.generations += 1
         clock.watch.progress(record.generations, record.evaluations)
         fitness = [r.fitness for r in results]
@@ -316,23 +334,28 @@ def _generations(
             kept = pick if solved else top  # a solution is the network that passed
             best_fitness = fitness[top]
             record.best_fitness = fitness[kept]
-            record.best_network = to_dict(batch[kept])
-            record.hidden_nodes = batch[kept].hidden_nodes
-            record.connections = batch[kept].enabled_connections
+            record.best_network = to_dict(batch.network(kept))
+            record.hidden_nodes = batch.hidden_nodes(kept)
+            record.connections = batch.enabled_connections(kept)
             record.success_details = details if pick == kept else {}
         row = GenerationLog(
             generation=generation,
             evaluations=record.evaluations,
             best_fitness=fitness[top],
             mean_fitness=math.fsum(fitness) / len(fitness),
-            best_hidden=batch[top].hidden_nodes,
-            best_connections=batch[top].enabled_connections,
+            best_hidden=batch.hidden_nodes(top),
+            best_connections=batch.enabled_connections(top),
             champion_test=details,
             non_finite_fitness=non_finite_fitness,
         )
         record.log.append(row)  # the row is complete once tell() and stats() are done
-        clock.call("tell()", generation, evolver.tell, tuple(results))
-        row.stats = _stats(evolver, clock, generation)
+        if isinstance(evolver, IsolatedEvolver):  # it asks the next batch at once if any
+            more = not solved and record.evaluations < budget
+            clock.call("tell()", generation, evolver.tell, tuple(results), generation, more)
+        else:
+            clock.call("tell()", generation, evolver.tell, tuple(results))
+        if "stats" in offers:
+            row.stats = checked_stats(clock.call("stats()", generation, evolver.stats), generation)
         if solved:
             record.status = SOLVED
             return
@@ -362,34 +385,3 @@ def _fittest_untested(
             tested.add(key)
             return i, rank
     return None
-
-
-def _settings(evolver: Any, clock: _Clock) -> dict[str, Any]:
-    settings = clock.call("settings()", None, evolver.settings)
-    if not isinstance(settings, Mapping):
-        raise RunFault(f"settings() returned {type(settings).__name__}, expected a mapping")
-    try:
-        return jsonsafe.loads(jsonsafe.dumps(dict(settings)))
-    except (TypeError, ValueError) as exc:
-        raise RunFault(f"settings() is not JSON-serialisable: {exc}") from None
-
-
-def _stats(evolver: Any, clock: _Clock, generation: int) -> dict[str, float]:
-    """The evolver's figures after ``tell()`` of ``generation``; non-finite ones are kept
-    (and written by the JSON rule of :mod:`.jsonsafe`)."""
-    if not hasattr(evolver, "stats"):
-        return {}
-    stats = clock.call("stats()", generation, evolver.stats)
-    if not isinstance(stats, Mapping):
-        raise RunFault(
-            f"stats() in generation {generation} returned {type(stats).__name__}, "
-            "expected a mapping"
-        )
-    out: dict[str, float] = {}
-    for key, value in stats.items():
-        if isinstance(value, bool) or not isinstance(value, int | float):
-            raise RunFault(
-                f"stats() in generation {generation}: value {key!r} is {value!r}, expected a number"
-            )
-        out[str(key)] = float(value)
-    return out

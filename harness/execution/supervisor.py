@@ -35,12 +35,20 @@ from multiprocessing.connection import wait
 from typing import Any
 
 from neuroyard.core.child_process import exit_words
-from neuroyard.core.defaults import DEFAULT_MEMORY_LIMIT_MB, DEFAULT_TIME_LIMIT, MAX_BATCH
+from neuroyard.core.defaults import (
+    DEFAULT_MEMORY_LIMIT_MB,
+    DEFAULT_RUN_LIMIT,
+    DEFAULT_TIME_LIMIT,
+    MAX_BATCH,
+)
 from neuroyard.execution import worker
-from neuroyard.execution.runner import call_label, new_record, run_one
+from neuroyard.execution.contract import call_label
+from neuroyard.execution.descendants import end_descendants
+from neuroyard.execution.runner import new_record, run_one
 from neuroyard.records.runs import FAILED, RunRecord, RunSpec
 
 POLL = 0.2  # s between checks of the running calls' time (ours)
+GRACE = 5.0  # s past the time limit before the supervisor ends a worker itself (ours)
 START_METHOD = "fork" if sys.platform.startswith("linux") else "spawn"
 
 
@@ -49,11 +57,14 @@ class Limits:
     """Bounds of a supervised run. ``time_limit``: seconds one evolver call (building it,
     ``start``, ``settings``, ``ask``, ``tell``, ``stats``, ``stop``) may take, None for no
     bound; ``memory_limit_mb``: megabytes a run may add to its worker process's address
-    space, None for no bound; ``max_batch``: networks one ``ask()`` may return."""
+    space and to the evolver's process, None for no bound; ``max_batch``: networks one
+    ``ask()`` may return; ``run_limit``: seconds of wall time a whole run may take,
+    evaluation included, None for no bound."""
 
     time_limit: float | None = DEFAULT_TIME_LIMIT
     memory_limit_mb: int | None = DEFAULT_MEMORY_LIMIT_MB
     max_batch: int = MAX_BATCH
+    run_limit: float | None = DEFAULT_RUN_LIMIT
 
 
 @dataclass(frozen=True)
@@ -72,6 +83,7 @@ def failed_record(spec: RunSpec, reason: str, status: Any, started: float) -> Ru
     record = new_record(spec)
     record.status = FAILED
     record.failure = reason
+    record.isolated = True  # a supervised run's evolver runs in a process of its own
     record.generations = int(status[worker.GENERATIONS])
     record.evaluations = int(status[worker.EVALUATIONS])
     wall = time.monotonic() - started
@@ -87,7 +99,13 @@ class _Worker:
         self.conn, child = context.Pipe()
         self.process = context.Process(
             target=worker.main,
-            args=(child, self.status, limits.max_batch, limits.memory_limit_mb),
+            args=(
+                child,
+                self.status,
+                limits.max_batch,
+                limits.memory_limit_mb,
+                limits.time_limit,
+            ),
             daemon=True,
         )
         # A Ctrl-C while the process starts must not reach it: it inherits SIG_IGN.
@@ -109,7 +127,9 @@ class _Worker:
         self.conn.send(spec)
 
     def kill(self) -> None:
-        """End the worker and every process it started (its process group)."""
+        """End every process below the worker (however it detached: the worker is their
+        subreaper), then the worker and its process group."""
+        end_descendants(self.process.pid)
         for target in (lambda: os.killpg(self.process.pid, signal.SIGKILL), self.process.kill):
             with contextlib.suppress(ProcessLookupError, PermissionError, OSError):
                 target()
@@ -181,10 +201,19 @@ class Supervisor:
             return self._died(w)
         call, generation, seconds = w.call()
         limit = self.limits.time_limit
-        if call and limit is not None and seconds > limit:
+        # the worker ends a late evolver reply itself; this catches a worker that does not
+        if call and limit is not None and seconds > limit + GRACE:
             w.kill()
             w.spec = None
             reason = f"{call_label(call, generation)} ran past {limit:g} s (the time limit)"
+            return Finished(spec, failed_record(spec, reason, w.status, w.started))
+        run_limit = self.limits.run_limit
+        if run_limit is not None and time.monotonic() - w.started > run_limit:
+            w.kill()
+            w.spec = None
+            where = worker.generation_of(w.status, harness=True)
+            place = "before the first generation" if where is None else f"in generation {where}"
+            reason = f"the run ran past its wall-clock limit of {run_limit:g} s ({place})"
             return Finished(spec, failed_record(spec, reason, w.status, w.started))
         return None
 

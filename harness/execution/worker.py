@@ -1,11 +1,14 @@
 """A worker process: runs one run at a time for the supervisor, until told to stop.
 
 The worker is long-lived: numba kernels are loaded once per worker and task, then reused
-by every later run it is given. It tells the supervisor, through a small block of shared
-memory, which evolver call it is in and since when (:class:`SharedWatch`), so the
-supervisor can end a call that runs past the time limit. It ignores Ctrl-C (the
-coordinator ends it), runs in its own process group (so ending it also ends any process
-the evolver started), and exits when the coordinator is gone.
+by every later run it is given. A Python evolver runs in a process of its own, forked for
+each run (:mod:`.isolation`): the worker evaluates and counts, and bounds each evolver
+reply by the time limit itself. It tells the supervisor, through a small block of shared
+memory that only the worker can write (the evolver's process unmaps it), which evolver
+call it is in and since when (:class:`SharedWatch`), so the supervisor can end a worker
+whose call runs past the limit all the same. It ignores Ctrl-C (the coordinator ends it),
+runs in its own process group, is the subreaper of every process a run starts, and ends
+them all when the run ends (:mod:`.descendants`); it exits when the coordinator is gone.
 
 Messages on the pipe: the supervisor sends a :class:`~.runner.RunSpec` (or None: stop);
 the worker answers ``("record", RunRecord)`` or ``("error", traceback text)`` for a fault
@@ -23,6 +26,8 @@ import traceback
 from multiprocessing.connection import Connection
 from typing import Any
 
+from neuroyard.core.evolver_registry import available
+from neuroyard.execution.descendants import become_subreaper, end_descendants
 from neuroyard.execution.runner import run_one
 
 # Evolver calls a worker reports, by code (0: none, the harness's own code or idle).
@@ -107,10 +112,18 @@ def _limit_memory(megabytes: int | None) -> None:
     resource.setrlimit(resource.RLIMIT_AS, (soft, hard))
 
 
-def main(conn: Connection, status: Any, max_batch: int, memory_limit_mb: int | None) -> None:
+def main(
+    conn: Connection,
+    status: Any,
+    max_batch: int,
+    memory_limit_mb: int | None,
+    time_limit: float | None,
+) -> None:
     """The worker's loop (the target of its process); see the module docstring."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     os.setpgrp()
+    become_subreaper()
+    available()  # read the installed evolvers once, here: every run's process inherits it
     # the process that started this one: the coordinator, or a forkserver of it
     parent = os.getppid()
     threading.Thread(target=_exit_with_parent, args=(parent,), daemon=True).start()
@@ -124,9 +137,11 @@ def main(conn: Connection, status: Any, max_batch: int, memory_limit_mb: int | N
             return
         try:
             _limit_memory(memory_limit_mb)
-            reply = ("record", run_one(spec, watch, max_batch, memory_limit_mb))
+            record = run_one(spec, watch, max_batch, memory_limit_mb, time_limit, isolate=True)
+            reply = ("record", record)
         except BaseException:  # a fault of the harness: the coordinator logs it
             reply = ("error", traceback.format_exc())
         finally:
             _limit_memory(None)
+            end_descendants()  # whatever the run started, however it detached
         conn.send(reply)

@@ -77,9 +77,9 @@ def merge(out: Path, sources: Sequence[Path]) -> MergeResult:
             added = store.merge_in(merged, _taken_runs(sources, takes))
             held = len(store.finished_keys())
     except BaseException:
-        if not existed:  # a merge that failed creates no store (its transaction rolled back)
-            out.unlink(missing_ok=True)
-        raise
+        if not existed and out.exists():  # a failed merge creates no store (its transaction
+            out.unlink()  # rolled back); asked only when the file is there, since unlinking
+        raise  # a missing file on a read-only file system fails with EROFS, not ENOENT
     return MergeResult(
         added,
         len(takes) - added,

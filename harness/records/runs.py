@@ -153,6 +153,7 @@ class RunRecord:
     it offers ``settings()``. ``timing`` holds wall, evolver and harness seconds.
     ``task_facts``: the figures that describe the task instance the run met
     (:attr:`~neuroyard.tasks.base.TaskSpec.facts`, such as a maze's deception score).
+    ``isolated``: whether the evolver ran in a process of its own (see Args).
     ``behaviours``: for a task with behaviour descriptors, a sample of the descriptors of
     the run's evaluations in evaluation order, evenly thinned to at most
     :data:`BEHAVIOUR_SAMPLE` points (:class:`BehaviourSample`); empty otherwise.
@@ -186,6 +187,9 @@ class RunRecord:
         host: the machine's name.
         task_facts: figures of the task instance.
         behaviours: the sample of behaviour descriptors.
+        isolated: whether the evolver ran in a process of its own, apart from the task,
+            the evaluation and the counting (False: ``--in-process``, and every record
+            written before neuroyard 0.2).
 
     Example:
         >>> import neuroyard
@@ -221,6 +225,7 @@ class RunRecord:
     host: str = ""
     task_facts: dict[str, float] = field(default_factory=dict)
     behaviours: list[list[float]] = field(default_factory=list)
+    isolated: bool = False
 
     @property
     def solved(self) -> bool:

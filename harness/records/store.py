@@ -50,7 +50,7 @@ import threading
 import time
 from collections.abc import Callable, Iterable, Iterator, Mapping
 from contextlib import contextmanager
-from dataclasses import asdict, dataclass
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -58,7 +58,9 @@ from neuroyard.core import jsonsafe
 from neuroyard.core.defaults import DEFAULT_PATH
 from neuroyard.core.errors import EvolverError, StoreError
 from neuroyard.core.evolver_registry import EvolverSpec, canonical_config
-from neuroyard.records.runs import GenerationLog, RunRecord, content_digest, record_key
+from neuroyard.core.inputfile import decode_utf8
+from neuroyard.records.recordcheck import RecordProblem, check_generation, check_record
+from neuroyard.records.runs import RunRecord, content_digest, record_key
 from neuroyard.records.shares import WHOLE, Share
 
 SCHEMA_VERSION = 6
@@ -66,6 +68,19 @@ READABLE_VERSIONS = tuple(str(v) for v in range(1, SCHEMA_VERSION + 1))  # older
 CLAIM_EXPIRY = 60.0  # s without a heartbeat after which a claim is void (ours)
 HEARTBEAT = 10.0  # s between a coordinator's refreshes of its claims (ours)
 MIN_FREE_BYTES = 1 << 20  # below this much free disk space a store counts as full (ours)
+# the columns of a generation log row, by the names of GenerationLog's fields; the JSON ones
+_LOG_COLUMNS = (
+    "generation",
+    "evaluations",
+    "best_fitness",
+    "mean_fitness",
+    "best_hidden",
+    "best_connections",
+    "stats",
+    "champion_test",
+    "non_finite_fitness",
+)
+_JSON_COLUMNS = ("stats", "champion_test")
 
 _CLAIMS = """CREATE TABLE IF NOT EXISTS claims (
     run_key TEXT PRIMARY KEY,
@@ -458,10 +473,12 @@ class ResultStore:
                 if _insert_run(db, run.key, campaign_id, run.record, run.finished_at):
                     added += 1
                     continue
-                run_id, text = db.execute(
-                    "SELECT id, record FROM runs WHERE run_key=?", (run.key,)
+                run_id, data = db.execute(
+                    "SELECT id, CAST(record AS BLOB) FROM runs WHERE run_key=?", (run.key,)
                 ).fetchone()
-                if content_digest(self._record(run_id, text)) != content_digest(run.record):
+                if content_digest(self._record(run_id, run.key, data)) != content_digest(
+                    run.record
+                ):
                     raise RunConflict(run.key, run.source, self.path)
         return added
 
@@ -475,33 +492,94 @@ class ResultStore:
             yield run.record
 
     def stored_runs(self, with_log: bool = True) -> Iterator[StoredRun]:
-        """Every stored run with its key, in the order of :meth:`records`."""
-        rows = self.db.execute(
-            "SELECT id, run_key, record, finished_at FROM runs"
-            " ORDER BY evolver, config_hash, task, run_index, id"
-        ).fetchall()
-        for run_id, key, text, finished_at in rows:
-            yield StoredRun(key, self._record(run_id, text, with_log), finished_at, self.path)
+        """Every stored run with its key, in the order of :meth:`records`; a run whose record
+        or log is broken is a :class:`StoreError` naming the store, the run and what is
+        wrong (:meth:`check_records`)."""
+        for run_id, key, data, finished_at in self._runs():
+            yield StoredRun(key, self._record(run_id, key, data, with_log), finished_at, self.path)
 
-    def _record(self, run_id: int, text: str, with_log: bool = True) -> RunRecord:
-        doc = jsonsafe.loads(text)
-        doc["log"] = self._log(run_id) if with_log else []
-        record = RunRecord.from_dict(doc)
+    def check_records(self) -> None:
+        """Check every stored run, record and log, against the record classes
+        (:mod:`.recordcheck`): each is UTF-8 JSON of at most 100 levels, has every field, no
+        unknown one, and a value of the field's type in each. A hand-edited store can break
+        that; ``run`` checks before it adds to a store, and every reader meets the same
+        error when it reads the run.
+
+        Raises:
+            StoreError: naming the store, the first broken run (its key) and what is wrong."""
+        for run_id, key, data, _ in self._runs():
+            self._document(run_id, key, data, with_log=True)
+
+    def _runs(self) -> list[tuple[int, str, bytes, str]]:
+        """(row id, key, record as bytes, finished at) of every run, in a stable order."""
+        return self._rows(
+            "SELECT id, run_key, CAST(record AS BLOB), finished_at FROM runs"
+            " ORDER BY evolver, config_hash, task, run_index, id"
+        )
+
+    def _rows(self, sql: str, parameters: tuple[Any, ...] = ()) -> list[Any]:
+        """The rows of a query; a file SQLite cannot read (or text that it cannot decode) is
+        a :class:`StoreError` naming the store."""
+        try:
+            return self.db.execute(sql, parameters).fetchall()
+        except sqlite3.DatabaseError as exc:
+            raise StoreError(f"results store {self.path}: cannot read it ({exc})") from None
+
+    def _record(self, run_id: int, key: str, data: bytes, with_log: bool = True) -> RunRecord:
+        record = RunRecord.from_dict(self._document(run_id, key, data, with_log))
         return record if self.version >= 4 else _current_names(record)
 
-    def _log(self, run_id: int) -> list[dict[str, Any]]:
-        champion_test = "champion_test" if self.version >= 2 else "'{}'"
-        non_finite_fitness = "non_finite_fitness" if self.version >= 3 else "0"
-        rows = self.db.execute(
-            "SELECT generation, evaluations, best_fitness, mean_fitness, best_hidden,"
-            f" best_connections, stats, {champion_test}, {non_finite_fitness} FROM generations"
-            " WHERE run_id=? ORDER BY generation",
+    def _document(self, run_id: int, key: str, data: bytes, with_log: bool) -> dict[str, Any]:
+        """The checked JSON form of run ``key``'s record (row ``run_id``; ``data``: the
+        stored record's bytes), with its log rows when ``with_log`` (else an empty log)."""
+        where = f"results store {self.path}: run {key}"
+        doc = _json_cell(data, f"{where}: its record")
+        try:
+            check_record(doc)
+        except RecordProblem as exc:
+            raise StoreError(f"{where}: its record: {exc}") from None
+        doc["log"] = self._log(run_id, where) if with_log else []
+        return doc
+
+    def _log(self, run_id: int, where: str) -> list[dict[str, Any]]:
+        """The checked log rows of row ``run_id`` (:class:`GenerationLog` fields); errors
+        start with ``where`` and name the generation."""
+        select = {name: name for name in _LOG_COLUMNS}
+        select.update({name: f"CAST({name} AS BLOB)" for name in _JSON_COLUMNS})
+        if self.version < 2:  # columns added by later versions read as their defaults
+            select["champion_test"] = "CAST('{}' AS BLOB)"
+        if self.version < 3:
+            select["non_finite_fitness"] = "0"
+        rows = self._rows(
+            f"SELECT {', '.join(select.values())} FROM generations WHERE run_id=?"
+            " ORDER BY generation",
             (run_id,),
-        ).fetchall()
-        return [
-            asdict(GenerationLog(g, e, bf, mf, bh, bc, jsonsafe.loads(st), jsonsafe.loads(ct), nf))
-            for g, e, bf, mf, bh, bc, st, ct, nf in rows
-        ]
+        )
+        log = []
+        for values in rows:
+            row = dict(zip(_LOG_COLUMNS, values, strict=True))
+            at = f"{where}: generation {row['generation']}"
+            for name in _JSON_COLUMNS:
+                row[name] = _json_cell(row[name], f"{at}: {name}")
+            try:
+                check_generation(row)
+            except RecordProblem as exc:
+                raise StoreError(f"{at}: {exc}") from None
+            log.append(row)
+        return log
+
+
+def _json_cell(data: bytes | None, where: str) -> Any:
+    """The JSON value a cell holds, read from its bytes (SQLite's text may be any bytes,
+    which Python's sqlite3 would fail to decode); a :class:`StoreError` starting with
+    ``where`` when it is NULL, not UTF-8 or not JSON (:func:`~neuroyard.core.jsonsafe.loads`)."""
+    if data is None:
+        raise StoreError(f"{where}: missing (NULL)")
+    text = decode_utf8(data, where, StoreError)
+    try:
+        return jsonsafe.loads(text)
+    except ValueError as exc:
+        raise StoreError(f"{where}: not valid JSON ({exc})") from None
 
 
 def _add_campaign(

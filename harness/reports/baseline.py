@@ -47,6 +47,7 @@ from jsonschema.exceptions import best_match
 
 from neuroyard.core import jsonsafe
 from neuroyard.core.errors import NeuroyardError
+from neuroyard.core.inputfile import read_text
 from neuroyard.records import provenance
 from neuroyard.records.runs import FAILED, SOLVED, UNSOLVED, RunRecord
 from neuroyard.reports import gate
@@ -246,14 +247,15 @@ class Baseline:
         """The baseline in the file at ``path``.
 
         Raises:
-            BaselineError: naming the file and what is wrong when it is not a baseline of
-                this format version."""
+            BaselineError: naming the file and what is wrong when it cannot be read (or is
+                larger than 64 MiB, or not UTF-8: :mod:`neuroyard.core.inputfile`), is not
+                JSON (or nests more than 100 levels: :mod:`neuroyard.core.jsonsafe`) or is
+                not a baseline of this format version."""
         path = Path(path)
+        text = read_text(path, f"baseline {path}", BaselineError)
         try:
-            raw = json.loads(path.read_bytes())
-        except OSError as exc:
-            raise BaselineError(f"baseline {path}: cannot read it ({exc.strerror})") from None
-        except ValueError as exc:  # also a file that is not UTF-8
+            raw = jsonsafe.parse(text)
+        except ValueError as exc:
             raise BaselineError(f"baseline {path}: not a JSON file ({exc})") from None
         if not isinstance(raw, dict) or raw.get("format") != FORMAT:
             raise BaselineError(

@@ -13,6 +13,7 @@ from tabulate import tabulate
 from neuroyard.core import jsonsafe
 from neuroyard.core.errors import TaskError
 from neuroyard.reports.compare import Comparison, MetricRow
+from neuroyard.reports.markdown import escape
 from neuroyard.tasks.registry import task_class
 
 NOTES = (
@@ -34,13 +35,14 @@ def comparison_text(comparison: Comparison, fmt: str = "text") -> str:
     markdown = fmt == "markdown"
     table_format = "github" if markdown else "simple"
     bullet = "- " if markdown else "  "
+    shown = escape if markdown else str  # user text (names, settings, reasons) as text
     lines = [f"A: {comparison.a}", f"B: {comparison.b}", f"level: {comparison.alpha:g}"]
-    lines = _wrapped([bullet + line for line in lines] if markdown else lines)
+    lines = _wrapped([bullet + shown(line) for line in lines] if markdown else lines)
     for task in comparison.tasks:
         settings = settings_text(task.task, task.task_settings)
         title = f"{task.task} ({settings}): {task.runs} runs"
-        lines += ["", f"### {title}"] if markdown else ["", *_wrapped([title])]
-        lines += _wrapped([f"{bullet}note: {note}" for note in task.notes])
+        lines += ["", f"### {shown(title)}"] if markdown else ["", *_wrapped([title])]
+        lines += _wrapped([f"{bullet}{shown(f'note: {note}')}" for note in task.notes])
         if not task.rows:
             continue
         table = [
@@ -48,12 +50,13 @@ def comparison_text(comparison: Comparison, fmt: str = "text") -> str:
             for row in task.rows
         ]
         head = ["figure", "A", "B", "A12 / diff", "p (Holm)", "runs needed"]
-        text = tabulate(table, head, tablefmt=table_format, disable_numparse=True)
+        cells = [[shown(cell) for cell in row] for row in table]
+        text = tabulate(cells, head, tablefmt=table_format, disable_numparse=True)
         lines += ["", *text.splitlines(), ""]
-        lines += _wrapped([f"{bullet}{row.metric}: {row.verdict}" for row in task.rows])
+        lines += _wrapped([f"{bullet}{shown(f'{row.metric}: {row.verdict}')}" for row in task.rows])
     if comparison.notes:
         lines.append("")
-        lines += _wrapped([f"{bullet}note: {note}" for note in comparison.notes])
+        lines += _wrapped([f"{bullet}{shown(f'note: {note}')}" for note in comparison.notes])
     lines += ["", *_wrapped([NOTES])]
     return "\n".join(lines)
 

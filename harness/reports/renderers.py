@@ -25,6 +25,7 @@ from neuroyard.core import jsonsafe
 from neuroyard.core.errors import NeuroyardError
 from neuroyard.reports import comparison_renderers, html
 from neuroyard.reports.document import SettingsGroup, Table, document
+from neuroyard.reports.markdown import escape
 from neuroyard.reports.report import ReportRow
 
 ENTRY_POINT_GROUPS = {
@@ -110,20 +111,16 @@ def _fit(table: Table) -> tuple[list[int | None], list[int | None]]:
     )
 
 
-def _markdown_cell(text: str) -> str:
-    return text.replace("|", "\\|").replace("\n", " ")
-
-
 def _table(table: Table, fmt: str) -> list[str]:
     """The lines of one table: caption, table, its footnotes."""
     align = ["right" if numeric else "left" for numeric in table.numeric]
     if fmt == "markdown":
-        head = [_markdown_cell(h) for h in table.head]
-        body = [[_markdown_cell(c) for c in row] for row in table.body]
-        out = [f"#### {_markdown_cell(table.caption)}", ""] if table.caption else []
+        head = [escape(h) for h in table.head]
+        body = [[escape(c) for c in row] for row in table.body]
+        out = [f"#### {escape(table.caption)}", ""] if table.caption else []
         out.append(tabulate(body, head, "github", disable_numparse=True, colalign=align))
         if table.notes:
-            out += ["", *(f"- [{n}] {_markdown_cell(text)}" for n, text in table.notes)]
+            out += ["", *(f"- [{n}] {escape(text)}" for n, text in table.notes)]
         return out
     widths, head_widths = _fit(table)
     out = [*_wrap(table.caption), ""] if table.caption else []
@@ -176,7 +173,7 @@ def _settings_lines(groups: Sequence[SettingsGroup], fmt: str) -> list[str]:
 
 def _item(text: str, level: int, fmt: str) -> list[str]:
     if fmt == "markdown":
-        return ["  " * level + "- " + _markdown_cell(text)]
+        return ["  " * level + "- " + escape(text)]
     indent = "  " * (level + 1)
     return _wrap(text, indent=indent, hang=indent + "    ")
 
@@ -197,7 +194,7 @@ def _document(rows: Sequence[ReportRow], fmt: str) -> str:
     parts += _settings_lines(doc.settings, fmt)
     parts += _heading("Notes", fmt)
     for note in doc.notes:
-        parts += [f"- {_markdown_cell(note)}"] if fmt == "markdown" else _wrap(note, "- ", "  ")
+        parts += [f"- {escape(note)}"] if fmt == "markdown" else _wrap(note, "- ", "  ")
     return "\n".join(parts[1:])  # no blank line before the first heading
 
 

@@ -140,6 +140,7 @@ class GymEnvTask(Task):
                unit="return", source="gymnasium's registration of the environment"),
         Option("max_steps", None, "time limit of an episode in steps (None: the "
                "environment's registered max_episode_steps)", kind=int, low=1,
+               high=1_000_000,  # ours: a bound on one evaluation's work
                source="gymnasium's registration of the environment"),
         Option("min_return", None, "lowest return of an episode, the fitness's lower "
                "bound (None: from the reward range neuroyard knows for the environment)",

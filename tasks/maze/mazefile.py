@@ -19,25 +19,40 @@ A maze file holds, in units of length (the robot's speed and size are in the sam
 
 The four sides of the arena are walls too (added on load). Numbers are TOML integers or
 floats (not booleans), finite; every key above is required (``walls`` may be empty) and no
-other key is allowed. Rules checked on load: width and height above 0; every wall of
-nonzero length with both ends inside the bounds; the start and the goal inside the bounds
-and at least ``clearance`` (the robot's radius) from every wall and side. A broken file
-raises :class:`TaskError` with one line naming the file, the entry and the rule.
+other key is allowed. Rules checked on load: width and height above 0 and at most
+:data:`MAX_SIDE`; ``steps`` at most :data:`MAX_STEPS`; the heading within
+-:data:`MAX_HEADING`..:data:`MAX_HEADING` degrees; at most :data:`MAX_WALLS` walls, each
+of nonzero length with both ends inside the bounds; the start and the goal inside the
+bounds and at least ``clearance`` (the robot's radius) from every wall and side. So every
+coordinate lies within 0..:data:`MAX_SIDE`, and an episode and the deception figures
+(a grid of the arena, :mod:`.deception`) take bounded time and memory. The file is read
+as :mod:`neuroyard.core.inputfile` reads every input file (UTF-8, at most 64 MiB). A
+broken file raises :class:`TaskError` with one line naming the file, the entry and the
+rule.
 """
 
 from __future__ import annotations
 
 import math
-import tomllib
+import os
 from dataclasses import dataclass
-from pathlib import Path
 from typing import Any
 
 import numpy as np
 
 from neuroyard.core.errors import TaskError
+from neuroyard.core.inputfile import parse_toml, read_text
 
 KEYS = {"steps", "bounds", "start", "goal", "walls"}
+# Upper limits of a maze file (ours). MAX_SIDE: five times the shipped mazes' 200 units;
+# the deception grid of such an arena (250,000 cells) is measured in about a second.
+# MAX_STEPS: 25 times the protocol's 400 (lehman2011; maze protocol), room to cross the
+# largest arena several times at the robot's top speed of 3 units a step. MAX_WALLS: the
+# shipped mazes have under 20; every step tests every wall.
+MAX_SIDE = 1000.0
+MAX_STEPS = 10_000
+MAX_WALLS = 1_000
+MAX_HEADING = 360.0  # degrees either way
 TABLES = {"bounds": ("width", "height"), "start": ("x", "y", "heading"), "goal": ("x", "y")}
 
 
@@ -129,29 +144,35 @@ class _Reader:
 def parse_maze(text: str, where: str, clearance: float) -> Maze:
     """Parse and validate maze file text (``where`` names it in errors); see module doc."""
     read = _Reader(where)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise TaskError(f"maze file {where}: not valid TOML: {exc}") from None
+    data = parse_toml(text, f"maze file {where}", TaskError)
     for key in data:
         if key not in KEYS:
             raise read.fail(key, f"unknown key (allowed: {', '.join(sorted(KEYS))})")
     if "steps" not in data:
         raise read.fail("steps", "missing")
     steps = data["steps"]
-    if isinstance(steps, bool) or not isinstance(steps, int) or steps < 1:
-        raise read.fail("steps", f"must be an integer >= 1, not {steps!r}")
+    if isinstance(steps, bool) or not isinstance(steps, int) or not 1 <= steps <= MAX_STEPS:
+        raise read.fail("steps", f"must be an integer >= 1 and <= {MAX_STEPS:,}, not {steps!r}")
     bounds = read.table(data, "bounds")
     width, height = bounds["width"], bounds["height"]
     for key in ("width", "height"):
-        if not bounds[key] > 0:
-            raise read.fail(f"bounds.{key}", f"must be above 0, not {bounds[key]}")
+        if not 0 < bounds[key] <= MAX_SIDE:
+            raise read.fail(
+                f"bounds.{key}", f"must be above 0 and at most {MAX_SIDE:,g}, not {bounds[key]}"
+            )
     start = read.table(data, "start")
+    if not -MAX_HEADING <= start["heading"] <= MAX_HEADING:
+        raise read.fail(
+            "start.heading",
+            f"must lie within -{MAX_HEADING:g}..{MAX_HEADING:g} degrees, not {start['heading']}",
+        )
     goal = read.table(data, "goal")
     if "walls" not in data:
         raise read.fail("walls", "missing (write walls = [] for none)")
     if not isinstance(data["walls"], list):
         raise read.fail("walls", "must be an array of tables")
+    if len(data["walls"]) > MAX_WALLS:
+        raise read.fail("walls", f"{len(data['walls']):,} walls, more than {MAX_WALLS:,}")
     segments = []
     for k, wall in enumerate(data["walls"]):
         entry = f"walls[{k}]"
@@ -187,10 +208,8 @@ def parse_maze(text: str, where: str, clearance: float) -> Maze:
     )
 
 
-def load_maze(path: Path, clearance: float) -> Maze:
-    """Load and validate the maze file at ``path`` (see :func:`parse_maze`)."""
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise TaskError(f"maze file {path}: cannot be read ({exc.strerror})") from None
-    return parse_maze(text, str(path), clearance)
+def load_maze(path: str | os.PathLike[str], clearance: float) -> Maze:
+    """Load and validate the maze file at ``path`` (see :func:`parse_maze`); errors name
+    the file as given."""
+    where = os.fspath(path)
+    return parse_maze(read_text(path, f"maze file {where}", TaskError), where, clearance)

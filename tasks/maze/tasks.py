@@ -43,7 +43,7 @@ from ..registry import register, register_form, retire
 from . import memo, picture
 from .deception import Deception
 from .generate import CANDIDATES, generated_maze
-from .mazefile import Maze, load_maze, parse_maze
+from .mazefile import Maze, load_maze
 from .robot import MAX_SPEED, MAX_TURN, N_INPUTS, RADIUS, RANGE, run_batch, run_episode
 
 LEHMAN_2011 = (
@@ -308,7 +308,7 @@ class MazeFile(MazeTask):
 
     def load(self) -> tuple[Maze, Deception]:
         path = self.settings["file"]
-        return _measured(parse_maze(Path(path).read_text(encoding="utf-8"), path, RADIUS))
+        return _measured(load_maze(path, RADIUS))
 
     @property
     def origin(self) -> str:

@@ -78,7 +78,10 @@ COMMON_OPTIONS = (
         "task_defaults", "integrator", "integration method of the equations of motion",
         choices=tuple(INTEGRATORS),
     ),
-    _option("task_defaults", "substeps", "integration steps per network action", low=1),
+    # the highs of substeps and the steps are ours: a bound on one evaluation's work, far
+    # above the published values (2 substeps, 100,000 steps)
+    _option("task_defaults", "substeps", "integration steps per network action", low=1,
+            high=1_000),
     _option(
         "task_defaults", "start_angle",
         "long pole angle at the start of every episode (must lie inside the failure angle)",
@@ -109,10 +112,11 @@ COMMON_OPTIONS = (
     ),
     _option(
         "task_defaults", "episode_steps", "control steps of one evaluation episode (its cap)",
-        low=1,
+        low=1, high=10_000_000,
     ),
     _option(
-        "task_defaults", "success_steps", "control steps the success test must balance", low=1
+        "task_defaults", "success_steps", "control steps the success test must balance", low=1,
+        high=10_000_000,
     ),
 )  # fmt: skip
 TWO_POLE_OPTIONS = (
