@@ -559,3 +559,25 @@ def test_dev_zero_is_refused_without_reading_it_all(tmp_path):
     assert os.stat("/dev/zero").st_size == 0
     with pytest.raises(NetworkError, match="larger than 64 MiB"):
         Network.from_file("/dev/zero")
+
+
+# -- settings that size one evaluation ------------------------------------------------------
+
+# The settings that set how long one evaluation runs or how large its world is: each has an
+# upper limit (issue 33: "task settings that make one evaluation unbounded have documented
+# upper limits"; the limits are ours).
+SIZING = ("steps", "size", "side")
+
+
+def test_every_setting_that_sizes_an_evaluation_has_an_upper_limit():
+    from neuroyard.tasks.registry import task_class, task_ids
+
+    unbounded = [
+        f"{task_id}: {option.name}"
+        for task_id in task_ids()
+        for option in task_class(task_id).options
+        if any(option.name.endswith(word) for word in SIZING)
+        and isinstance(option.default, int | float)
+        and option.high is None
+    ]
+    assert not unbounded, unbounded

@@ -153,6 +153,26 @@ def _entry_points() -> dict[str, str]:
     return {ep.name: ep.value for ep in entry_points(group=ENTRY_POINT_GROUP)}
 
 
+@cache
+def _own_entry_points() -> dict[str, str]:
+    return {
+        ep.name: ep.value
+        for ep in entry_points(group=ENTRY_POINT_GROUP)
+        if ep.dist is not None and ep.dist.name == "neuroyard"
+    }
+
+
+def preload_own(spec: EvolverSpec) -> None:
+    """Import the module of ``spec``'s evolver in this process when it is one of
+    neuroyard's own (an entry point of the neuroyard distribution, given by name): our own
+    code, which a worker may hold, so that the process forked for each run starts with it
+    loaded (importing the reference NEAT takes about 70 ms per run otherwise). Any other
+    evolver's code is left to the run's own process."""
+    target = _own_entry_points().get(spec.name)
+    if target is not None and spec.factory is None:
+        importlib.import_module(target.partition(":")[0])
+
+
 INSTALLED, MODULE, PROCESS, UNKNOWN = "installed", "module", "process", "unknown"
 
 

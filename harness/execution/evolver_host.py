@@ -30,6 +30,7 @@ closes, and always by ``os._exit``: it never returns into the worker's code.
 from __future__ import annotations
 
 import ctypes
+import gc
 import multiprocessing.heap
 import os
 import resource
@@ -58,6 +59,7 @@ def serve(conn: Connection, spec: EvolverSpec, memory_limit_mb: int | None, work
     """The new process's life (module docstring), forked by the process ``worker``; never
     returns."""
     status = 1
+    gc.freeze()  # the worker's objects: never traversed here, so their pages stay shared
     try:
         die_with_parent(worker)
         _detach(conn, memory_limit_mb)

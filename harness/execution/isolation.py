@@ -28,7 +28,7 @@ from typing import Any
 from neuroyard.core import jsonsafe
 from neuroyard.core.child_process import exit_words
 from neuroyard.core.evolver import Evaluation, Outcome, Problem
-from neuroyard.core.evolver_registry import EvolverSpec
+from neuroyard.core.evolver_registry import EvolverSpec, preload_own
 from neuroyard.core.flat import FlatBatch
 from neuroyard.execution import evolver_host
 from neuroyard.execution.contract import checked_settings, checked_stats
@@ -75,6 +75,7 @@ class IsolatedEvolver:
         max_batch: int,
     ) -> None:
         self.time_limit = time_limit
+        preload_own(spec)
         mine, theirs = Pipe()
         worker = os.getpid()
         self.pid = os.fork()

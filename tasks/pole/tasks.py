@@ -143,7 +143,7 @@ ONE_POLE_OPTIONS = (
 DAMPED_OPTIONS = (
     _option(
         "damped_fitness", "episode_steps", "control steps of one evaluation episode (its cap)",
-        low=1,
+        low=1, high=10_000_000,
     ),
     Option(
         "damped_fitness", True, "fitness is the damped fitness instead of steps balanced",
