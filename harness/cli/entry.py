@@ -15,6 +15,7 @@ from neuroyard.core import interrupts
 
 def main() -> int:
     interrupts.install(interrupts.raise_and_record)
+    interrupts.quiet_dropped()
     try:
         from neuroyard.cli.main import main as run_command_line
     except KeyboardInterrupt:

@@ -7,12 +7,18 @@ line installs :func:`raise_and_record` at once (:mod:`neuroyard.cli.entry`), so 
 is also recorded in :data:`PRESSED`; a campaign's loop (:func:`neuroyard.execution.campaign.
 execute`) records Ctrl-C only while it runs, checks :data:`PRESSED` at every turn and raises
 KeyboardInterrupt there, where it is safe, then clears it (the interruption is handled).
+A KeyboardInterrupt dropped that way is recorded, so the command line also keeps Python
+from printing it as "ignored" (:func:`quiet_dropped`): the one line it prints on the way out
+says what happened.
 """
 
 from __future__ import annotations
 
+import contextlib
 import signal
+import sys
 import threading
+from collections.abc import Iterator
 from typing import Any
 
 PRESSED = threading.Event()
@@ -40,3 +46,32 @@ def install(handler: Any) -> Any:
         return None
     signal.signal(signal.SIGINT, handler)
     return previous
+
+
+def quiet_dropped() -> None:
+    """Make this process's hook for exceptions Python cannot raise (``sys.unraisablehook``)
+    skip a KeyboardInterrupt that :func:`raise_and_record` recorded, and report everything
+    else as before."""
+    previous = sys.unraisablehook
+
+    def hook(unraisable: Any) -> None:
+        if isinstance(unraisable.exc_value, KeyboardInterrupt) and PRESSED.is_set():
+            return
+        previous(unraisable)
+
+    sys.unraisablehook = hook
+
+
+@contextlib.contextmanager
+def deferred() -> Iterator[threading.Event]:
+    """While the block runs, a Ctrl-C (SIGINT) is only recorded in :data:`PRESSED` (which
+    the block yields), for the caller to act on where it is safe: raised wherever the signal
+    fell, it could land in a callback that drops it (numba's, Dask's, an import lock's), or
+    halfway through starting something that then cannot be ended. A Ctrl-C recorded before
+    the block (and perhaps dropped) counts too."""
+    previous = install(record_only)
+    try:
+        yield PRESSED
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGINT, previous)

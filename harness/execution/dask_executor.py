@@ -38,6 +38,7 @@ from typing import Any
 import dask
 import distributed
 
+from neuroyard.core import interrupts
 from neuroyard.core.errors import NeuroyardError
 from neuroyard.execution.descendants import end_descendants
 from neuroyard.execution.supervisor import START_METHOD, Finished, Limits, Supervisor
@@ -197,5 +198,13 @@ def dask_executor(workers: int, limits: Limits, scheduler: str | None = None) ->
                 f"supervise runs: {NOT_DAEMON_HINT}"
             )
         return DaskExecutor(client, limits)
-    cluster = local_cluster(workers)
-    return DaskExecutor(distributed.Client(cluster), limits, cluster)
+    # a Ctrl-C halfway through the start would leave worker processes that nothing ends
+    # (the interpreter then waits for them at exit): it is acted on once the cluster is up
+    with interrupts.deferred() as pressed:
+        cluster = local_cluster(workers)
+        executor = DaskExecutor(distributed.Client(cluster), limits, cluster)
+    if pressed.is_set():
+        pressed.clear()  # handled here
+        executor.close()
+        raise KeyboardInterrupt
+    return executor
