@@ -9,7 +9,8 @@ import pytest
 from neuroyard.core.evolver_registry import EvolverSpec
 from neuroyard.execution import seeds
 from neuroyard.execution.campaign import plan_run
-from neuroyard.execution.runner import load_kernels, run_one
+from neuroyard.execution.kernels import load_kernels
+from neuroyard.execution.runner import run_one
 from neuroyard.tasks import make
 from neuroyard.tasks.base import SuccessCheck
 from neuroyard.tasks.logic import Xor

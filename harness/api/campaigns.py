@@ -20,6 +20,7 @@ its module.
 
 from __future__ import annotations
 
+import sys
 from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import Any
@@ -115,7 +116,8 @@ def run(
             no limit).
         share: run only share ``K/N`` of the campaign (batch job K of N; see
             ``neuroyard merge``).
-        progress: show a progress bar (after 3 s).
+        progress: show a progress bar (after 3 s), and say on stderr, in one line, when
+            the tasks' numba kernels must be compiled first (once per machine).
 
     Returns:
         The campaign's runs (of its share) as :class:`~.results.Results`, with ``done``
@@ -184,7 +186,14 @@ def run(
         made.close()
         raise
     with opened as results_store:
-        outcome = execute(plan, results_store, made, progress=progress, share=share)
+        outcome = execute(
+            plan,
+            results_store,
+            made,
+            progress=progress,
+            share=share,
+            notice=_say if progress else None,
+        )
     if outcome.internal_errors:
         raise InternalError(
             f"{outcome.internal_errors} run(s) stopped on an internal error and were not "
@@ -193,6 +202,11 @@ def run(
         )
     keys = [spec.key for spec in share.select(plan.expand())]
     return Results([store], keys, done=outcome.done, skipped=outcome.skipped)
+
+
+def _say(line: str) -> None:
+    """Write ``line`` to stderr, where the progress bar goes."""
+    print(line, file=sys.stderr, flush=True)
 
 
 def _checked_store(path: str | Path) -> ResultStore:

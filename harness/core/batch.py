@@ -12,7 +12,9 @@ it in words, so every message comes from one place. Tests hold the two to agreem
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+import math
+from collections.abc import Callable, Iterator, Sequence
+from contextlib import contextmanager
 from typing import NamedTuple
 
 import numba
@@ -22,7 +24,7 @@ from neuroyard.core.activations import CODES
 from neuroyard.core.compiled import CompiledNetwork
 from neuroyard.core.errors import NetworkError
 from neuroyard.core.flat import FlatBatch
-from neuroyard.core.network import Network, check
+from neuroyard.core.network import Connection, Network, Node, check
 
 _IDENTITY = CODES["identity"]
 
@@ -72,7 +74,7 @@ class CompiledBatch(NamedTuple):
         )
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def member(batch: CompiledBatch, i: int) -> CompiledNetwork:
     """Network ``i`` of a batch inside numba, as views (no copy)."""
     a, b = batch.node_ptr[i], batch.node_ptr[i + 1]
@@ -92,50 +94,51 @@ def member(batch: CompiledBatch, i: int) -> CompiledNetwork:
     )
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, _nrt=False)
 def _compile_all(
-    node_ptr, conn_ptr, modes, kinds, acts, enabled, ids, biases, gains, src, dst, weight,
-    want_inputs, want_outputs,
+    node_ptr, conn_ptr, modes, kinds, acts, enabled, ids, by_id, biases, gains, src, dst,
+    weight, want_inputs, want_outputs, out,
 ):  # fmt: skip
-    """Check every network and build the concatenated arrays; see :class:`CompiledBatch`.
+    """Check every network and fill the concatenated arrays ``out`` (allocated by
+    :func:`compile_flat`); see :class:`CompiledBatch`. ``by_id``: the positions of each
+    network's nodes in the order of their ids (within the network's segment).
 
-    Returns (index of the first bad network or -1, arrays...). ``want_*`` < 0: any count.
+    Returns the index of the first bad network, or -1. ``want_*`` < 0: any count.
+
+    Arrays are made outside and searched by hand: numba compiles each array constructor
+    and library sort of a kernel anew on a machine whose cache is cold (seconds each).
     """
+    (recurrent, n_inputs, n_bias, n_nodes, node_out, ptr_out, edge_out, outs_out, act, bias,
+     gain, in_ptr, in_src, in_w, out_idx, work) = out  # fmt: skip
     size = modes.shape[0]
-    n_nodes_total = ids.shape[0]
-    n_conn_total = src.shape[0]
-    recurrent = np.zeros(size, np.bool_)
-    n_inputs = np.zeros(size, np.int64)
-    n_bias = np.zeros(size, np.int64)
-    n_nodes = np.zeros(size, np.int64)
-    node_out = np.zeros(size + 1, np.int64)
-    ptr_out = np.zeros(size + 1, np.int64)
-    edge_out = np.zeros(size + 1, np.int64)
-    outs_out = np.zeros(size + 1, np.int64)
-    act = np.zeros(n_nodes_total, np.uint8)
-    bias = np.zeros(n_nodes_total)
-    gain = np.zeros(n_nodes_total)
-    in_ptr = np.zeros(n_nodes_total + size, np.uint32)
-    in_src = np.zeros(n_conn_total, np.uint32)
-    in_w = np.zeros(n_conn_total)
-    out_idx = np.zeros(n_nodes_total, np.uint32)
-    failed = -1
     for i in range(size):
         a, b = node_ptr[i], node_ptr[i + 1]
         c, d = conn_ptr[i], conn_ptr[i + 1]
         n = b - a
         if modes[i] < 0:
-            failed = i
-            break
-        # node ids: sorted copy for duplicate detection and lookups
-        order = np.argsort(ids[a:b], kind="mergesort")
-        sorted_ids = ids[a:b][order]
+            return i
+        # scratch, cut from one work array that every network reuses: positions by id,
+        # slots, evaluation order, in-degrees, the stack of Kahn's algorithm, the
+        # connections' endpoints, and the connections grouped by target and by source
+        order = work[0:n]
+        slot = work[n : 2 * n]
+        comp = work[2 * n : 3 * n]
+        indegree = work[3 * n : 4 * n]
+        stack = work[4 * n : 5 * n]
+        links = d - c
+        src_pos = work[5 * n : 5 * n + links]
+        dst_pos = work[5 * n + links : 5 * n + 2 * links]
+        target_ptr = work[5 * n + 2 * links : 6 * n + 2 * links + 1]
+        target_order = work[6 * n + 2 * links + 1 : 6 * n + 3 * links + 1]
+        source_ptr = work[6 * n + 3 * links + 1 : 7 * n + 3 * links + 2]
+        source_order = work[7 * n + 3 * links + 2 : 7 * n + 4 * links + 2]
+        fill = work[7 * n + 4 * links + 2 : 8 * n + 4 * links + 2]
         bad = False
-        for k in range(1, n):
-            if sorted_ids[k] == sorted_ids[k - 1]:
+        for k in range(n):
+            order[k] = by_id[a + k] - a
+            if k > 0 and ids[a + order[k]] == ids[a + order[k - 1]]:
                 bad = True
         # slots: inputs, biases (list order), then computed nodes
-        slot = np.full(n, -1, np.int64)
         n_in = 0
         n_b = 0
         n_out = 0
@@ -152,35 +155,35 @@ def _compile_all(
             elif kind <= 1:
                 if acts[a + k] != _IDENTITY or biases[a + k] != 0.0 or gains[a + k] != 1.0:
                     bad = True
-            elif acts[a + k] < 0 or not np.isfinite(biases[a + k]) or not np.isfinite(gains[a + k]):
+            elif (
+                acts[a + k] < 0
+                or not math.isfinite(biases[a + k])
+                or not math.isfinite(gains[a + k])
+            ):
                 bad = True
         if (want_inputs >= 0 and n_in != want_inputs) or (
             want_outputs >= 0 and n_out != want_outputs
         ):
             bad = True
         # connections: endpoints exist, targets computed, finite weights
-        src_pos = np.zeros(d - c, np.int64)
-        dst_pos = np.zeros(d - c, np.int64)
         for e in range(c, d):
-            ps = np.searchsorted(sorted_ids, src[e])
-            pt = np.searchsorted(sorted_ids, dst[e])
-            if ps >= n or sorted_ids[ps] != src[e] or pt >= n or sorted_ids[pt] != dst[e]:
+            ps = _position(ids, order, a, src[e])
+            pt = _position(ids, order, a, dst[e])
+            if ps < 0 or pt < 0:
                 bad = True
                 break
-            src_pos[e - c] = order[ps]
-            dst_pos[e - c] = order[pt]
-            if kinds[a + dst_pos[e - c]] <= 1 or not np.isfinite(weight[e]):
+            src_pos[e - c] = ps
+            dst_pos[e - c] = pt
+            if kinds[a + pt] <= 1 or not math.isfinite(weight[e]):
                 bad = True
                 break
         if bad:
-            failed = i
-            break
+            return i
         # enabled connections grouped by target and by source, each in connection order
-        by_target = _group(dst_pos, enabled[c:d], n)
-        by_source = _group(src_pos, enabled[c:d], n)
+        _group(dst_pos, enabled[c:d], n, target_ptr, fill, target_order)
+        _group(src_pos, enabled[c:d], n, source_ptr, fill, source_order)
         # evaluation order of computed nodes
         n_comp = n - n_in - n_b
-        comp = np.zeros(n_comp, np.int64)  # node positions in evaluation order
         m = 0
         if modes[i] == 1:  # recurrent: list order
             for k in range(n):
@@ -188,11 +191,11 @@ def _compile_all(
                     comp[m] = k
                     m += 1
         else:  # feedforward: Kahn's algorithm over enabled connections
-            indegree = np.zeros(n, np.int64)
+            for k in range(n):
+                indegree[k] = 0
             for e in range(d - c):
                 if enabled[c + e] and kinds[a + src_pos[e]] >= 2:
                     indegree[dst_pos[e]] += 1
-            stack = np.zeros(n, np.int64)
             top = 0
             for k in range(n - 1, -1, -1):
                 if kinds[a + k] >= 2 and indegree[k] == 0:
@@ -203,15 +206,14 @@ def _compile_all(
                 k = stack[top]
                 comp[m] = k
                 m += 1
-                for x in range(by_source[0][k], by_source[0][k + 1]):
-                    t = dst_pos[by_source[1][x]]
+                for x in range(source_ptr[k], source_ptr[k + 1]):
+                    t = dst_pos[source_order[x]]
                     indegree[t] -= 1
                     if indegree[t] == 0:
                         stack[top] = t
                         top += 1
             if m < n_comp:  # a cycle
-                failed = i
-                break
+                return i
         s_in = 0
         s_b = n_in
         for k in range(n):
@@ -233,8 +235,8 @@ def _compile_all(
             bias[na + j] = biases[a + k]
             gain[na + j] = gains[a + k]
             in_ptr[pa + j] = edges
-            for x in range(by_target[0][k], by_target[0][k + 1]):
-                e = by_target[1][x]
+            for x in range(target_ptr[k], target_ptr[k + 1]):
+                e = target_order[x]
                 in_src[ea + edges] = slot[src_pos[e]]
                 in_w[ea + edges] = weight[c + e]
                 edges += 1
@@ -252,43 +254,42 @@ def _compile_all(
         ptr_out[i + 1] = pa + n_comp + 1
         edge_out[i + 1] = ea + edges
         outs_out[i + 1] = oa + outs
-    return (
-        failed,
-        recurrent,
-        n_inputs,
-        n_bias,
-        n_nodes,
-        node_out,
-        ptr_out,
-        edge_out,
-        outs_out,
-        act,
-        bias,
-        gain,
-        in_ptr,
-        in_src,
-        in_w,
-        out_idx,
-    )
+    return -1
 
 
-@numba.njit(cache=True)
-def _group(key: np.ndarray, enabled: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
-    """Stable counting sort of the enabled edges by ``key`` (a node position 0..n-1):
-    edges with key k are ``order[ptr[k]:ptr[k+1]]``, in their original order."""
-    ptr = np.zeros(n + 1, np.int64)
+@numba.njit(cache=True, inline="always")
+def _position(ids, order, a, value):  # fmt: skip
+    """The position of the node with id ``value`` in the network whose nodes start at
+    ``a`` (``order``: its positions sorted by id), or -1; a binary search."""
+    low, high = 0, order.shape[0]
+    while low < high:
+        middle = (low + high) // 2
+        if ids[a + order[middle]] < value:
+            low = middle + 1
+        else:
+            high = middle
+    if low < order.shape[0] and ids[a + order[low]] == value:
+        return order[low]
+    return -1
+
+
+@numba.njit(cache=True, _nrt=False)
+def _group(key, enabled, n, ptr, fill, order):  # fmt: skip
+    """Stable counting sort of the enabled edges by ``key`` (a node position 0..n-1), into
+    the buffers ``ptr`` (n + 1), ``fill`` (n) and ``order`` (the edges): edges with key k
+    are ``order[ptr[k]:ptr[k+1]]``, in their original order."""
+    for k in range(n + 1):
+        ptr[k] = 0
     for e in range(key.shape[0]):
         if enabled[e]:
             ptr[key[e] + 1] += 1
     for k in range(n):
         ptr[k + 1] += ptr[k]
-    fill = ptr[:-1].copy()
-    order = np.zeros(ptr[n], np.int64)
+        fill[k] = ptr[k]
     for e in range(key.shape[0]):
         if enabled[e]:
             order[fill[key[e]]] = e
             fill[key[e]] += 1
-    return ptr, order
 
 
 def compile_batch(
@@ -321,13 +322,25 @@ def compile_flat(
     the broken network is rebuilt from the arrays, :meth:`FlatBatch.network`)."""
     want_in = -1 if inputs is None else inputs
     want_out = -1 if outputs is None else outputs
-    bad, *arrays = _compile_all(
+    size, nodes, conns = flat.size, flat.ids.shape[0], flat.src.shape[0]
+    owner = np.repeat(np.arange(size), np.diff(flat.node_ptr))
+    by_id = np.lexsort((flat.ids, owner))  # each network's nodes by id, network by network
+    out = (
+        np.zeros(size, np.bool_), *(np.zeros(size, np.int64) for _ in range(3)),
+        *(np.zeros(size + 1, np.int64) for _ in range(4)),
+        np.zeros(nodes, np.uint8), np.zeros(nodes), np.zeros(nodes),
+        np.zeros(nodes + size, np.uint32), np.zeros(conns, np.uint32), np.zeros(conns),
+        np.zeros(nodes, np.uint32), np.zeros(8 * nodes + 4 * conns + 2, np.int64),
+    )  # fmt: skip
+    kernel = _compile_all.py_func if _AS_PYTHON else _compile_all
+    bad = kernel(
         flat.node_ptr, flat.conn_ptr, flat.modes, flat.kinds, flat.acts, flat.enabled,
-        flat.ids, flat.biases, flat.gains, flat.src, flat.dst, flat.weight, want_in, want_out,
+        flat.ids, by_id, flat.biases, flat.gains, flat.src, flat.dst, flat.weight, want_in,
+        want_out, out,
     )  # fmt: skip
     if bad < 0:
-        rec, n_in, n_b, n_n, node_ptr, ptr_ptr, edge_ptr, out_ptr, *data = arrays
-        act, bias, gain, in_ptr, in_src, in_w, out_idx = data
+        rec, n_in, n_b, n_n, node_ptr, ptr_ptr, edge_ptr, out_ptr, *data = out
+        act, bias, gain, in_ptr, in_src, in_w, out_idx, _ = data
         return CompiledBatch(
             flat.size, rec, n_in, n_b, n_n, node_ptr, ptr_ptr, edge_ptr, out_ptr,
             act[: node_ptr[-1]], bias[: node_ptr[-1]], gain[: node_ptr[-1]],
@@ -337,6 +350,34 @@ def compile_flat(
     suspect = networks[bad] if networks is not None else flat.network(bad)
     check(suspect, inputs, outputs, label(bad))  # explains the broken rule in words
     raise NetworkError(f"{label(bad)}: rejected by the compiler but not by check()")
+
+
+def load_compiler() -> None:
+    """Load the batch compiler's kernel in this process (compiling it when numba's cache
+    does not hold it): its types do not depend on the networks, so one small batch does."""
+    nodes = (Node(0, "input"), Node(1, "output", "sigmoid"))
+    compile_batch([Network(nodes, (Connection(0, 1, 1.0),))])
+
+
+_AS_PYTHON = False  # compile_flat runs its kernel as plain Python (see compiler_as_python)
+_HELPERS = ("_group", "_position")  # the kernels it calls
+
+
+@contextmanager
+def compiler_as_python() -> Iterator[None]:
+    """While the block runs, :func:`compile_flat` runs the batch compiler as plain Python,
+    fast enough for the few networks of a warm-up, so that this process can compile the
+    tasks' kernels while another compiles the compiler (:func:`load_compiler`;
+    :mod:`neuroyard.execution.kernels`). Not thread-safe: for one thread's warm-up."""
+    global _AS_PYTHON
+    kernels = {name: globals()[name] for name in _HELPERS}
+    globals().update({name: kernel.py_func for name, kernel in kernels.items()})
+    _AS_PYTHON = True
+    try:
+        yield
+    finally:
+        _AS_PYTHON = False
+        globals().update(kernels)
 
 
 def first_bad(

@@ -53,7 +53,7 @@ def fingerprint(net: CompiledNetwork) -> bytes:
     return digest.digest()
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def new_state(net: CompiledNetwork) -> tuple[np.ndarray, np.ndarray]:
     """Allocate (values, scratch) buffers for ``net``; call :func:`reset` before use."""
     values = np.zeros(net.n_nodes, dtype=np.float64)
@@ -62,7 +62,7 @@ def new_state(net: CompiledNetwork) -> tuple[np.ndarray, np.ndarray]:
     return values, scratch
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def reset(net: CompiledNetwork, values: np.ndarray) -> None:
     """Start of an episode: every node 0, bias nodes 1."""
     values[:] = 0.0

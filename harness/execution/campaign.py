@@ -22,7 +22,7 @@ import signal
 import sqlite3
 import threading
 import time
-from collections.abc import Callable, Iterator, Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from functools import cached_property
 from pathlib import Path
@@ -33,14 +33,14 @@ from tqdm import tqdm
 from neuroyard.core import interrupts
 from neuroyard.core.errors import StoreError
 from neuroyard.core.evolver_registry import EvolverSpec
-from neuroyard.execution import crashlog
+from neuroyard.execution import crashlog, kernels
 from neuroyard.execution.executors import Executor, make_executor
 from neuroyard.execution.resolution import resolve
 from neuroyard.execution.verification import verified
 from neuroyard.records.runs import RunRecord, RunSpec
 from neuroyard.records.shares import WHOLE, Share
 from neuroyard.records.store import ResultStore, owner_id
-from neuroyard.tasks import TaskSpec, make
+from neuroyard.tasks import Task, TaskSpec, make
 from neuroyard.tasks.registry import remember
 
 WAIT_FOR_OTHERS = 1.0  # s between looks at runs that other coordinators are running
@@ -57,24 +57,28 @@ class TaskChoice:
         """The choice in resolved values: builds the task once, which checks the settings
         (a bad one is a :class:`~neuroyard.core.errors.TaskError`); ``budget`` None is the
         task's default budget."""
-        spec = remember(make(self.id, **self.settings).spec)
+        built = make(self.id, **self.settings)
+        spec = remember(built.spec)
         return ResolvedTask(
             self.id,
             dict(spec.settings),
             spec,
             budget if budget is not None else spec.default_budget,
+            built,
         )
 
 
 @dataclass(frozen=True)
 class ResolvedTask:
     """A task choice in resolved values: every setting (defaults merged, checked), the
-    task's spec under them and the effective budget (evaluations per run)."""
+    task's spec under them, the effective budget (evaluations per run) and the task as it
+    was built to resolve them (at task seed 0; the coordinator loads its kernels)."""
 
     id: str
     settings: dict[str, Any]
     spec: TaskSpec
     budget: int
+    built: Task = field(compare=False, repr=False)
 
 
 def plan_run(
@@ -176,9 +180,14 @@ def execute(
     progress: bool = True,
     on_record: Callable[[RunRecord], None] | None = None,
     share: Share = WHOLE,
+    notice: Callable[[str], None] | None = None,
 ) -> CampaignResult:
     """Run every run of ``plan`` (of its ``share`` only, when given) not yet in ``store``
     (see module docstring); the store records the whole plan and the share.
+
+    Before the first run, this process loads the kernels of the tasks left to run
+    (:func:`.kernels.prepare`); ``notice`` is called with one line when they must be
+    compiled first.
 
     Runs execute on ``executor`` (:mod:`.executors`; default one supervised worker
     process), which this function closes when it returns. Each pending run is claimed in the
@@ -209,7 +218,9 @@ def execute(
             running.add(key)
 
     try:
-        with store.keep_alive(owner), _deferred_ctrl_c() as pressed:
+        # inside: a Ctrl-C while the kernels load shuts the executor down as any other
+        kernels.prepare(_tasks_left(plan, [by_key[key] for key in remaining]), notice)
+        with store.keep_alive(owner), interrupts.deferred() as pressed:
             while remaining or running:
                 if pressed.is_set():
                     pressed.clear()  # handled here, from now on
@@ -251,19 +262,16 @@ def execute(
     return CampaignResult(done, skipped, errors, crash_log)
 
 
-@contextlib.contextmanager
-def _deferred_ctrl_c() -> Iterator[threading.Event]:
-    """While the block runs, a Ctrl-C (SIGINT) is only recorded, and the campaign's loop
-    raises KeyboardInterrupt at its next turn (at most a second later), where it is safe:
-    raised wherever the signal fell, it could land in a callback that drops it (numba's,
-    Dask's, an import lock's) and the campaign would go on. A Ctrl-C recorded before the
-    block (and perhaps dropped) counts too. See :mod:`neuroyard.core.interrupts`."""
-    previous = interrupts.install(interrupts.record_only)
-    try:
-        yield interrupts.PRESSED
-    finally:
-        if previous is not None:
-            signal.signal(signal.SIGINT, previous)
+def _tasks_left(plan: CampaignPlan, specs: Sequence[RunSpec]) -> list[Task]:
+    """The plan's tasks (as built when it was resolved) that ``specs`` still run."""
+    left = {
+        (spec.task, json.dumps(spec.task_settings, sort_keys=True, default=str)) for spec in specs
+    }
+    return [
+        task.built
+        for task in plan.tasks_resolved
+        if (task.id, json.dumps(task.settings, sort_keys=True, default=str)) in left
+    ]
 
 
 def _shut_down(executor: Any, store: ResultStore, owner: str, bar: tqdm, interrupted: bool) -> None:

@@ -32,7 +32,6 @@ calibration was recorded have no ``calibration`` and so no relative speed.
 
 from __future__ import annotations
 
-import json
 import math
 import time
 from collections.abc import Sequence
@@ -59,6 +58,7 @@ from neuroyard.execution.contract import (
 )
 from neuroyard.execution.evolver_host import OPTIONAL
 from neuroyard.execution.isolation import IsolatedEvolver, IsolatedFault
+from neuroyard.execution.kernels import load_kernels
 from neuroyard.execution.seeds import evolver_seed, task_seed
 from neuroyard.records import provenance
 from neuroyard.records.runs import (
@@ -70,7 +70,7 @@ from neuroyard.records.runs import (
     RunRecord,
     RunSpec,
 )
-from neuroyard.tasks import Task, make
+from neuroyard.tasks import make
 
 
 class Watch(Protocol):
@@ -160,23 +160,6 @@ def bound_fitness(
         out[k] = Evaluation(low, result.behaviour)
         replaced += 1
     return out, replaced
-
-
-_WARM: set[str] = set()
-
-
-def load_kernels(task: Task) -> float:
-    """Load (or compile) the task's numba kernels before the run starts, once per process
-    and task setting, so that it is not charged to the first run's harness time
-    (:meth:`~neuroyard.tasks.base.Task.warm_up`). Returns the seconds spent (0.0 when
-    already done in this process)."""
-    key = json.dumps([task.id, task.settings], sort_keys=True, default=str)
-    if key in _WARM:
-        return 0.0
-    start = time.perf_counter()
-    task.warm_up()
-    _WARM.add(key)
-    return time.perf_counter() - start
 
 
 def new_record(spec: RunSpec) -> RunRecord:
