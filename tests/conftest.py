@@ -1,12 +1,17 @@
 """The suite keeps the user's cache folder untouched: building a maze task writes the memo of
 maze figures (neuroyard.tasks.maze.memo) into ``$NEUROYARD_CACHE_DIR``, here a temporary
-folder of the session (set before collection, so that subprocesses inherit it)."""
+folder of the session (set before collection, so that subprocesses inherit it).
+
+Tests that run a program from outside Python (chromium, node, cc) are marked
+``needs_tool``; :mod:`external_tools` skips them where the program is missing."""
 
 import os
 import shutil
 import tempfile
 
 import pytest
+
+pytest_plugins = ["external_tools"]
 
 
 def pytest_configure(config: pytest.Config) -> None:

@@ -9,7 +9,8 @@ the PNG embedded in that image's ``data:`` URI (the PNG specification, IHDR chun
 embedded image was decoded. The same probe counts the ``<b>`` elements and takes the page's
 visible text (``innerText``), which shows whether markup in names came out as text.
 
-Without Chromium the test fails; set NEUROYARD_SKIP_BROWSER=1 to skip it on purpose.
+The tests that open a page are marked ``needs_tool("chromium")`` (:mod:`external_tools`):
+skipped where Chromium is missing, failed instead under ``NEUROYARD_REQUIRE_TOOLS=1`` (CI).
 """
 
 from __future__ import annotations
@@ -18,7 +19,6 @@ import base64
 import html
 import importlib
 import json
-import os
 import re
 import shutil
 import struct
@@ -38,7 +38,6 @@ from neuroyard.tasks import registry
 
 HERE = Path(__file__).parent
 RESULTS = HERE.parent / "results"
-SKIP_VARIABLE = "NEUROYARD_SKIP_BROWSER"
 PROBE = """<script>
 window.addEventListener("load", () => {
   const images = Array.from(document.images);
@@ -56,27 +55,16 @@ window.addEventListener("load", () => {
 </script>"""
 
 
-def chromium() -> str:
-    path = shutil.which("chromium")
-    if path is None:
-        if os.environ.get(SKIP_VARIABLE) == "1":
-            pytest.skip(f"no chromium, and {SKIP_VARIABLE}=1 says to skip")
-        pytest.fail(
-            "chromium is not installed (Debian package chromium; .ci/run installs it); "
-            f"set {SKIP_VARIABLE}=1 to skip this test on purpose"
-        )
-    return path
-
-
 def in_browser(page: Path, tmp_path: Path) -> dict:
-    """What Chromium rendered of ``page`` (see the module docstring), offline."""
+    """What Chromium rendered of ``page`` (see the module docstring), offline; the test
+    calling it is marked ``needs_tool("chromium")``."""
     probed = tmp_path / f"probed-{page.name}"
     source = page.read_text(encoding="utf-8")
     assert source.count("</body>") == 1
     probed.write_text(source.replace("</body>", PROBE + "</body>"), encoding="utf-8")
     out = subprocess.run(
         [
-            chromium(),
+            "chromium",
             "--headless",
             "--disable-gpu",
             "--no-sandbox",
@@ -136,6 +124,7 @@ def check_page(page: Path, tmp_path: Path) -> tuple[dict, str]:
     return seen, source
 
 
+@pytest.mark.needs_tool("chromium")
 def test_the_html_report_of_a_campaign_renders_every_image(tmp_path, monkeypatch, capsys):
     # a small campaign added to a copy of the committed DPNV study (task metric, logs)
     store = tmp_path / "study.db"
@@ -156,6 +145,7 @@ def test_the_html_report_of_a_campaign_renders_every_image(tmp_path, monkeypatch
     assert "where the evaluations of a run ended" not in source  # no maze, no maze picture
 
 
+@pytest.mark.needs_tool("chromium")
 def test_the_html_report_of_maze_runs_shows_one_run_picture_per_maze(tmp_path, capsys):
     store = tmp_path / "mazes.db"
     for task, evolver, budget in (("maze-open-v1", "neat-novelty", "600"),
@@ -171,6 +161,7 @@ def test_the_html_report_of_maze_runs_shows_one_run_picture_per_maze(tmp_path, c
     assert "The run shown is the first solved run" in seen["text"]
 
 
+@pytest.mark.needs_tool("chromium")
 def test_markup_in_names_settings_and_reasons_is_shown_as_text(tmp_path, monkeypatch, capsys):
     monkeypatch.syspath_prepend(str(HERE))
     markup = importlib.import_module("markup_plugins")
@@ -276,6 +267,7 @@ def test_best_fitness_quartiles_follow_each_runs_best_so_far():
         assert [low[k], median[k], high[k]] == pytest.approx(np.percentile(column, [25, 50, 75]))
 
 
+@pytest.mark.needs_tool("chromium")
 def test_the_html_comparison_renders_every_image_and_escapes_names(tmp_path, monkeypatch, capsys):
     monkeypatch.syspath_prepend(str(HERE))
     markup = importlib.import_module("markup_plugins")
@@ -293,3 +285,79 @@ def test_the_html_comparison_renders_every_image_and_escapes_names(tmp_path, mon
     assert "<b>" not in source and "&lt;b&gt;x&lt;/b&gt;&amp;" in source
     assert seen["bold"] == 0 and name in seen["text"]
     assert "success rate" in seen["text"] and "runs needed" in seen["text"]
+
+
+# What a reader sees of the report polish of issue 34: long names break only after their
+# separators, a Gymnasium task is named by its environment id, a footnote is printed once.
+
+LONG_NAME = (
+    "plugins_for_tests.an_evolver_module_whose_name_is_long_enough_to_wrap:"
+    "AnEvolverClassWithALongName_and_some_more_words_to_be_sure"
+)
+# after the page's load event: the text of each line box of every element holding the name
+LINE_BOXES = """<script>
+window.addEventListener("load", () => {
+  const lines = (element) => {
+    const out = [""];
+    let top = null;
+    const walker = document.createTreeWalker(element, NodeFilter.SHOW_TEXT);
+    while (walker.nextNode()) {
+      const node = walker.currentNode;
+      for (let i = 0; i < node.length; i++) {
+        const range = document.createRange();
+        range.setStart(node, i);
+        range.setEnd(node, i + 1);
+        const box = range.getClientRects()[0];
+        if (box && top !== null && box.top > top + 1) out.push("");
+        if (box) top = box.top;
+        out[out.length - 1] += node.data[i];
+      }
+    }
+    return out;
+  };
+  const holders = Array.from(document.querySelectorAll("td, h3"))
+    .filter((e) => e.textContent.includes("NAME_START"));
+  const pre = document.createElement("pre");
+  pre.textContent = "LINE_BOXES " + JSON.stringify(holders.map(lines));
+  document.body.appendChild(pre);
+});
+</script>"""
+
+
+@pytest.mark.needs_tool("chromium")
+def test_long_names_break_only_after_their_separators_in_the_browser(tmp_path):
+    import dataclasses
+
+    from neuroyard.reports import renderers, report
+    from neuroyard.reports.wrapping import SEPARATORS
+
+    records = [dataclasses.replace(r, evolver=LONG_NAME) for r in RUNS]
+    page = tmp_path / "long.html"
+    page.write_text(renderers.render(report.build(records), "html"), encoding="utf-8")
+    check_page(page, tmp_path)
+    measured = tmp_path / "measured.html"
+    probe = LINE_BOXES.replace("NAME_START", LONG_NAME[:20])
+    measured.write_text(page.read_text().replace("</body>", probe + "</body>"), encoding="utf-8")
+    found = re.search(r"LINE_BOXES (\[.*\])", in_browser(measured, tmp_path)["text"])
+    assert found
+    holders = json.loads(found.group(1))
+    # its cells in the three tables of the summary
+    assert len(holders) == 3 and all("".join(lines) == LONG_NAME for lines in holders)
+    assert any(len(lines) > 1 for lines in holders)  # the name was too long for a line
+    for lines in holders:
+        for line in lines[:-1]:
+            assert line.endswith(" ") or line[-1] in SEPARATORS, lines
+
+
+@pytest.mark.needs_tool("chromium")
+def test_a_gymnasium_task_and_its_footnotes_as_the_browser_shows_them(tmp_path, capsys):
+    store = tmp_path / "cartpole.sqlite"
+    shutil.copyfile(RESULTS / "gym" / "cartpole.sqlite", store)
+    page = tmp_path / "cartpole.html"
+    assert main(["report", "--store", str(store), "--format", "html", "-o", str(page)]) == 0
+    text = check_page(page, tmp_path)[0]["text"]
+    assert "gym-env-v1" not in text and "Task gym:CartPole-v1" in text
+    assert "task gym:CartPole-v1" in text  # the heading of its settings
+    # the source of the published threshold, cited by both evolvers' tables, once
+    assert text.count("registration of CartPole-v1 in gymnasium/envs/__init__.py") == 1
+    assert "see above for [" in text

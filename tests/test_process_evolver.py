@@ -15,7 +15,6 @@ import json
 import math
 import os
 import shlex
-import shutil
 import sqlite3
 import subprocess
 import sys
@@ -390,18 +389,16 @@ def test_one_campaign_keeps_the_good_run_beside_the_faulty_one(child, tmp_path) 
 
 # --- the example evolvers -----------------------------------------------------------------
 
-NODE = shutil.which("node")
-CC = shutil.which("cc")
-needs_node = pytest.mark.skipif(NODE is None, reason="Node.js (node) is not on PATH")
-needs_cc = pytest.mark.skipif(CC is None, reason="no C compiler (cc) on PATH")
+needs_node = pytest.mark.needs_tool("node")  # external_tools: skipped where it is missing
+needs_cc = pytest.mark.needs_tool("cc")
 
 
 @pytest.fixture(scope="module")
 def es_binary(tmp_path_factory) -> Path:
-    """es.c built by the README's one-line command."""
+    """es.c built by the one-line command of reference/README.md (for tests marked ``needs_cc``)."""
     out = tmp_path_factory.mktemp("es_c") / "es"
     subprocess.run(
-        [CC, "-O2", "-std=c99", "-Wall", "-Wextra", "-Werror", "-o", str(out), str(ES_C), "-lm"],
+        ["cc", "-O2", "-std=c99", "-Wall", "-Wextra", "-Werror", "-o", str(out), str(ES_C), "-lm"],
         check=True,
     )
     return out

@@ -3,7 +3,8 @@
 group that solved nothing and a group whose runs broke.
 
 Checked: every line of the text report fits 120 columns; no ``inf`` anywhere; every
-footnote a table cites is printed below it, and the notes explain the configuration hash
+footnote a table cites is printed once, below the first table that cites it (a later one
+says "see above"), and the notes explain the configuration hash
 and what "failed" means; every figure is formatted the same way wherever it appears, with
 thousands separators (Python's format mini-language, PEP 378, as the reference)."""
 
@@ -81,7 +82,7 @@ def text_tables(text: str) -> list[tuple[str, list[str], list[list[str]], list[s
             j += 1
         notes = []
         j += 1
-        while j < len(lines) and lines[j].startswith("  ["):
+        while j < len(lines) and lines[j].startswith(("  [", "  see above for [")):
             notes.append(lines[j].strip())
             j += 1
         caption = lines[k - 3] if k >= 3 and not lines[k - 2].strip() else ""
@@ -103,11 +104,21 @@ def test_no_infinite_number_is_printed(rows, text):
         assert not re.search(r"(?<![A-Za-z])inf(?![A-Za-z])", out, re.IGNORECASE), fmt
 
 
-def test_footnotes_are_printed_below_the_tables_that_cite_them(rows, text):
+def test_footnotes_are_printed_once_below_the_first_table_that_cites_them(rows, text):
+    printed: set[str] = set()
     for caption, _, body, notes in text_tables(text):
         cited = {m for row in body for cell in row for m in re.findall(r"\[\d+\]", cell)}
-        defined = {note.split()[0] for note in notes}
-        assert cited <= defined, caption
+        defined = {note.split()[0] for note in notes if not note.startswith("see above")}
+        above = {
+            m
+            for note in notes
+            if note.startswith("see above")
+            for m in re.findall(r"\[\d+\]", note)
+        }
+        assert not defined & printed, caption  # each footnote's text once per report
+        assert above <= printed, caption  # "see above" names footnotes printed above
+        assert cited == defined | above, caption
+        printed |= defined
     # the ERT of the group that solved nothing is a dash that cites why
     outcome = text_tables(text)[0]
     (line,) = [row for row in outcome[2] if row[0] == NEVER_SOLVES]

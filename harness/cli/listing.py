@@ -14,6 +14,7 @@ from typing import Any
 from neuroyard.core import jsonsafe
 from neuroyard.core.errors import SettingError
 from neuroyard.core.evolver_registry import available, load_factory, option_table
+from neuroyard.core.numbers import number, value_text
 from neuroyard.core.options import OptionTable
 from neuroyard.tasks import TaskSpec, retired, specs
 from neuroyard.tasks.registry import forms, make, needing, parse_task, task_class
@@ -96,12 +97,12 @@ def _options(task_id: str) -> OptionTable:
 
 
 def _print_spec(s: TaskSpec) -> None:
-    top = "no upper bound" if s.max_fitness is None else f"{s.max_fitness:g}"
+    top = "no upper bound" if s.max_fitness is None else value_text(s.max_fitness)
     print(
         f"{s.id}: {s.inputs} inputs, {s.outputs} outputs, default budget "
         f"{s.default_budget:,} evaluations"
     )
-    print(f"  fitness: {s.fitness} (bounds {s.min_fitness:g} to {top})")
+    print(f"  fitness: {s.fitness} (bounds {value_text(s.min_fitness)} to {top})")
     print(f"  solved:  {s.success}")
     for k, text in enumerate(s.observations):
         print(f"  input {k}: {text}")
@@ -112,7 +113,7 @@ def _print_spec(s: TaskSpec) -> None:
         unit = f", {m.unit}" if m.unit else ""
         print(f"  metric {m.name} ({m.better} is better{unit}): {m.description}")
     if s.facts:
-        print("  facts:   " + ", ".join(f"{k} {v:.4g}" for k, v in s.facts.items()))
+        print("  facts:   " + ", ".join(f"{k} {number(v, '.4g')}" for k, v in s.facts.items()))
     for src in s.sources:
         print(f"  source:  {src}")
 
@@ -124,7 +125,7 @@ def _print_options(table: OptionTable) -> None:
         unit = f" {o.unit}" if o.unit else ""
         allowed = f", {o.rule}" if o.rule else ""
         former = f"; formerly {', '.join(o.aliases)}" if o.aliases else ""
-        print(f"    {o.name} = {_value(o.default)}{unit} ({o.type_name}{allowed}{former})")
+        print(f"    {o.name} = {value_text(o.default)}{unit} ({o.type_name}{allowed}{former})")
         if o.help:
             print(f"        {o.help}")
         if o.source:
@@ -143,8 +144,4 @@ def _first_line(obj: Any) -> str:
 
 
 def _joined(settings: Any) -> str:
-    return ", ".join(f"{k}={_value(v)}" for k, v in settings.items()) or "none"
-
-
-def _value(value: Any) -> str:
-    return f"{value:g}" if isinstance(value, float) else str(value)
+    return ", ".join(f"{k}={value_text(v)}" for k, v in settings.items()) or "none"

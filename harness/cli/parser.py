@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import textwrap
 from pathlib import Path
 from typing import Any, NoReturn
 
@@ -25,6 +26,7 @@ from neuroyard.core.defaults import (
     DEFAULT_RUNS,
     DEFAULT_SEED,
     DEFAULT_TIME_LIMIT,
+    DEFAULT_WORKERS,
     EVALUATIONS_RISE,
     GATE_ALPHA,
     MAX_BATCH,
@@ -39,7 +41,26 @@ from neuroyard.core.defaults import (
 from neuroyard.core.errors import NeuroyardError
 from neuroyard.records.shares import WHOLE, Share
 
-FORMATS_HELP = "text, markdown, json, html or an installed renderer"
+FORMATS_HELP = "text, markdown, json, html or an installed renderer's name (default text)"
+TASK_FORMS = (
+    "a registered task id (see `neuroyard tasks`), gym:ENV_ID (a Gymnasium environment) "
+    "or maze:PATH (a maze file)"
+)
+EVOLVER_FORMS = (
+    "an installed evolver's name (see `neuroyard evolvers`), module:attr (a class or factory "
+    "in an importable module) or process:COMMAND (a program of any language speaking the "
+    "JSON-lines protocol)"
+)
+# the guides, in the source tree, by what they cover
+GUIDES = {
+    "README.md": "start here: the quick start, an evolver of your own, a tour of the commands",
+    "harness/README.md": "the commands, the results store, clusters and batch jobs, the "
+    "regression gate, trusting a baseline",
+    "tasks/README.md": "every task: inputs, outputs, criteria, settings and sources",
+    "reference/README.md": "the reference evolvers, the published figures, evolvers in other "
+    "languages",
+    "results/README.md": "the committed studies and where they stand",
+}
 
 
 class _Parser(argparse.ArgumentParser):
@@ -108,9 +129,27 @@ def _assignment(text: str) -> tuple[str, Any]:
     return key.strip(), value
 
 
+def _guides(*names: str) -> str:
+    """The epilog of a help page: the guides ``names`` (all of them when none is given),
+    each with what it covers."""
+    chosen = names or tuple(GUIDES)
+    width = max(len(name) for name in chosen) + 4
+    lines = [
+        textwrap.fill(GUIDES[name], 79, initial_indent=f"  {name:<{width - 2}}",
+                      subsequent_indent=" " * width)
+        for name in chosen
+    ]  # fmt: skip
+    return "guides (in the neuroyard source tree):\n" + "\n".join(lines)
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The whole command line."""
-    p = _Parser(prog="neuroyard", description="Benchmark neuroevolution algorithms honestly.")
+    p = _Parser(
+        prog="neuroyard",
+        description="Benchmark neuroevolution algorithms honestly.",
+        epilog=_guides(),
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
     sub = p.add_subparsers(dest="command_name", required=True, parser_class=_Parser)
     for add in (_tasks, _evolvers, _run, _report, _export, _evaluate, _replay, _merge):
         add(sub)
@@ -119,45 +158,108 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
+def _subcommand(sub: Any, name: str, summary: str, *guides: str) -> argparse.ArgumentParser:
+    """Subcommand ``name``: ``summary`` in the command list and atop its help page, the
+    ``guides`` (all when none is given) below it."""
+    return sub.add_parser(
+        name,
+        help=summary,
+        description=summary[0].upper() + summary[1:] + ".",
+        epilog=_guides(*guides),
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+
+
 def _command(parser: argparse.ArgumentParser, target: str) -> None:
     parser.set_defaults(command=target)
 
 
+def _format(parser: argparse.ArgumentParser) -> None:
+    """The ``--format`` of the listings."""
+    parser.add_argument(
+        "--format", choices=("text", "json"), default="text", help="text or json (default text)"
+    )
+
+
+def _output(parser: argparse.ArgumentParser, what: str) -> None:
+    parser.add_argument(
+        "-o", "--output", type=Path, metavar="FILE", help=f"write {what} to FILE (default stdout)"
+    )
+
+
+def _store(parser: argparse.ArgumentParser, what: str = "results store file") -> None:
+    parser.add_argument(
+        "--store", type=Path, default=DEFAULT_PATH, help=f"{what} (default {DEFAULT_PATH})"
+    )
+
+
 def _tasks(sub: Any) -> None:
-    t = sub.add_parser("tasks", help="list the tasks with interface, criteria, settings, sources")
+    t = _subcommand(
+        sub,
+        "tasks",
+        "list the tasks with interface, criteria, settings, sources",
+        "tasks/README.md",
+    )
     t.add_argument(
-        "task", nargs="?", help="one task id or FORM:VALUE: also every setting with its source"
+        "task",
+        nargs="?",
+        metavar="TASK",
+        help=f"one task to show with every setting and its source: {TASK_FORMS} (default: "
+        "list every task)",
     )
     t.add_argument(
         "--setting", type=_assignment, action="append", default=[], metavar="KEY=VALUE",
-        help="a setting of the one task (its spec and facts under that setting)",
+        help="a setting of the one task (its spec and facts under that setting); repeatable",
     )  # fmt: skip
-    t.add_argument("--format", choices=("text", "json"), default="text")
+    _format(t)
     _command(t, "listing:tasks_command")
 
 
 def _evolvers(sub: Any) -> None:
-    e = sub.add_parser("evolvers", help="list the installed evolvers, or one with its options")
-    e.add_argument("evolver", nargs="?", help="an evolver name: every option with its source")
-    e.add_argument("--format", choices=("text", "json"), default="text")
+    e = _subcommand(
+        sub,
+        "evolvers",
+        "list the installed evolvers, or one with its options",
+        "reference/README.md",
+    )
+    e.add_argument(
+        "evolver",
+        nargs="?",
+        metavar="EVOLVER",
+        help="one evolver to show with every option and its source: an installed evolver's "
+        "name or module:attr (default: list the installed ones)",
+    )
+    _format(e)
     _command(e, "listing:evolvers_command")
 
 
 def _run(sub: Any) -> None:
-    r = sub.add_parser("run", help="run a campaign into a results store")
+    r = _subcommand(sub, "run", "run a campaign into a results store")
     r.add_argument(
         "--evolver",
         action="append",
-        help=f"evolver name, module:attr or process:COMMAND (default {DEFAULT_EVOLVER})",
+        help=f"{EVOLVER_FORMS}; repeatable (default {DEFAULT_EVOLVER})",
     )
     r.add_argument(
-        "--task", action="append", help=f"task id, repeatable (default {', '.join(QUICK_SUITE)})"
+        "--task",
+        action="append",
+        help=f"{TASK_FORMS}; repeatable (default {', '.join(QUICK_SUITE)})",
     )
-    r.add_argument("--runs", type=_positive, default=DEFAULT_RUNS, help="runs per evolver and task")
-    r.add_argument("--seed", type=_seed, default=DEFAULT_SEED, help="campaign seed, 0 to 2**63 - 1")
+    r.add_argument(
+        "--runs",
+        type=_positive,
+        default=DEFAULT_RUNS,
+        help=f"runs per evolver and task (default {DEFAULT_RUNS})",
+    )
+    r.add_argument(
+        "--seed",
+        type=_seed,
+        default=DEFAULT_SEED,
+        help=f"campaign seed, 0 to 2**63 - 1 (default {DEFAULT_SEED})",
+    )
     r.add_argument("--budget", type=_positive, help="evaluations per run (default: the task's)")
-    r.add_argument("--store", type=Path, default=DEFAULT_PATH, help="results store file")
-    r.add_argument("--config", type=Path, help="evolver configuration TOML file")
+    _store(r)
+    r.add_argument("--config", type=Path, help="evolver configuration TOML file (default: none)")
     r.add_argument(
         "--param",
         type=_assignment,
@@ -165,7 +267,7 @@ def _run(sub: Any) -> None:
         default=[],
         metavar="[EVOLVER:]KEY=VALUE",
         help="evolver option; with EVOLVER: for that evolver only, else for every evolver "
-        "of the campaign that has it",
+        "of the campaign that has it; repeatable (default: the evolver's own)",
     )
     r.add_argument(
         "--setting",
@@ -174,15 +276,21 @@ def _run(sub: Any) -> None:
         default=[],
         metavar="[TASK:]KEY=VALUE",
         help="task setting; with TASK: for that task only, else for every task of the "
-        "campaign that has it",
+        "campaign that has it; repeatable (default: the task's own)",
     )
-    r.add_argument("--workers", type=_positive, default=1, help="parallel worker processes")
+    r.add_argument(
+        "--workers",
+        type=_positive,
+        default=DEFAULT_WORKERS,
+        help=f"parallel worker processes (default {DEFAULT_WORKERS})",
+    )
     r.add_argument(
         "--share",
         type=_share,
         default=WHOLE,
         metavar="K/N",
-        help="run only share K of N of the campaign (batch job K of N; see `neuroyard merge`)",
+        help="run only share K of N of the campaign, as batch job K of N (see `neuroyard "
+        f"merge`; default {WHOLE}: the whole campaign)",
     )
     r.add_argument(
         "--time-limit",
@@ -223,20 +331,20 @@ def _run(sub: Any) -> None:
         "--scheduler",
         metavar="ADDRESS",
         help="run on the Dask cluster whose scheduler is at ADDRESS (tcp://HOST:PORT); "
-        "the workers need neuroyard installed",
+        "the workers need neuroyard installed (default: worker processes on this machine)",
     )
     r.add_argument(
         "--cluster",
         choices=("local",),
         help="local: start a Dask cluster of --workers processes on this machine (loopback "
-        "only) and run on it",
+        "only) and run on it (default: no cluster)",
     )
     r.add_argument("--quiet", action="store_true", help="no progress bar and no report")
     _command(r, "campaign_commands:run_command")
 
 
 def _report(sub: Any) -> None:
-    rp = sub.add_parser("report", help="summarise the runs in a store")
+    rp = _subcommand(sub, "report", "summarise the runs in a store", "harness/README.md")
     rp.add_argument(
         "--store",
         type=Path,
@@ -244,52 +352,68 @@ def _report(sub: Any) -> None:
         help=f"results store; repeat it to report several together (default {DEFAULT_PATH})",
     )
     rp.add_argument("--format", default="text", help=FORMATS_HELP)
-    rp.add_argument(
-        "-o", "--output", type=Path, metavar="FILE", help="write the report to FILE, not stdout"
-    )
+    _output(rp, "the report")
     _command(rp, "campaign_commands:report_command")
 
 
 def _export(sub: Any) -> None:
-    e = sub.add_parser(
+    e = _subcommand(
+        sub,
         "export",
-        help="write the runs: JSON lines (every record), or CSV tables (one row per run or "
+        "write the runs: JSON lines (every record), or CSV tables (one row per run or "
         "per generation)",
+        "harness/README.md",
     )
-    e.add_argument("--store", type=Path, default=DEFAULT_PATH, help="results store file")
-    e.add_argument("--format", choices=("jsonl", "csv"), required=True)
+    _store(e)
+    e.add_argument(
+        "--format",
+        choices=("jsonl", "csv"),
+        required=True,
+        help="jsonl: one JSON record per run, its log included; csv: the table --table names",
+    )
     e.add_argument(
         "--table",
         choices=("runs", "generations"),
         default="runs",
-        help="with --format csv: one row per run (default) or per generation",
+        help="with --format csv: one row per run or per generation (default runs)",
     )
-    e.add_argument("-o", "--output", type=Path, metavar="FILE", help="write to FILE, not stdout")
+    _output(e, "the runs")
     _command(e, "campaign_commands:export_command")
 
 
 def _evaluate(sub: Any) -> None:
-    ev = sub.add_parser("evaluate", help="evaluate a network file on a task")
+    ev = _subcommand(
+        sub, "evaluate", "evaluate a network file on a task", "harness/README.md", "tasks/README.md"
+    )
     ev.add_argument("network", type=Path, help="network JSON file")
-    ev.add_argument("--task", required=True)
-    ev.add_argument("--setting", type=_assignment, action="append", default=[], metavar="KEY=VALUE")
+    ev.add_argument("--task", required=True, help=TASK_FORMS)
+    ev.add_argument(
+        "--setting", type=_assignment, action="append", default=[], metavar="KEY=VALUE",
+        help="a setting of the task; repeatable (default: the task's own)",
+    )  # fmt: skip
     _command(ev, "campaign_commands:evaluate_command")
 
 
 def _replay(sub: Any) -> None:
-    p = sub.add_parser("replay", help="run a network on its task and draw the episode")
+    p = _subcommand(
+        sub, "replay", "run a network on its task and draw the episode", "harness/README.md"
+    )
     source = p.add_mutually_exclusive_group(required=True)
     source.add_argument(
         "--store", type=Path, help="results store; replays the best network of --run"
     )
     source.add_argument("--network", type=Path, help="network JSON file")
-    p.add_argument("--task", default=REPLAY_TASK, help=f"task id (default {REPLAY_TASK})")
+    p.add_argument(
+        "--task",
+        help=f"{TASK_FORMS} (default: with --store, the store's one task; with --network, "
+        f"{REPLAY_TASK})",
+    )
     p.add_argument("--run", type=int, default=0, help="run index in the store (default 0)")
     p.add_argument(
         "--evolver",
         metavar="EVOLVER[@HASH]",
         help="whose run, where the store holds several evolver configurations on the task "
-        "(HASH: the start of the configuration hash the report prints)",
+        "(HASH: the start of the configuration hash the report prints; default: the only one)",
     )
     p.add_argument(
         "--steps",
@@ -302,8 +426,11 @@ def _replay(sub: Any) -> None:
 
 
 def _merge(sub: Any) -> None:
-    p = sub.add_parser(
-        "merge", help="combine the stores of one campaign's shares (batch jobs) into one"
+    p = _subcommand(
+        sub,
+        "merge",
+        "combine the stores of one campaign's shares (batch jobs) into one",
+        "harness/README.md",
     )
     p.add_argument("out", type=Path, metavar="OUT", help="store to merge into (created if missing)")
     p.add_argument("stores", type=Path, nargs="+", metavar="STORE", help="stores to merge")
@@ -311,33 +438,62 @@ def _merge(sub: Any) -> None:
 
 
 def _compare(sub: Any) -> None:
-    p = sub.add_parser("compare", help="is B better than A? two configurations side by side")
-    p.add_argument("--store", type=Path, default=DEFAULT_PATH, help="store of side A (and B)")
-    p.add_argument("--store-b", type=Path, help="store of side B (default: --store)")
+    p = _subcommand(
+        sub, "compare", "is B better than A? two configurations side by side", "harness/README.md"
+    )
+    _store(p, "store of side A (and B)")
+    p.add_argument(
+        "--store-b", type=Path, metavar="STORE", help="store of side B (default: --store)"
+    )
     p.add_argument("--a", metavar="EVOLVER[@HASH]", help="side A (default: the only one there)")
     p.add_argument("--b", metavar="EVOLVER[@HASH]", help="side B (default: the only one there)")
-    p.add_argument("--alpha", type=_level, default=COMPARE_ALPHA, help="significance level")
+    p.add_argument(
+        "--alpha",
+        type=_level,
+        default=COMPARE_ALPHA,
+        help=f"significance level, between 0 and 1 (default {COMPARE_ALPHA:g})",
+    )
     p.add_argument("--format", default="text", help=FORMATS_HELP)
-    p.add_argument("-o", "--output", type=Path, metavar="FILE", help="write to FILE, not stdout")
+    _output(p, "the comparison")
     _command(p, "compare_command:command")
 
 
 def _baseline(sub: Any) -> None:
-    b = sub.add_parser("baseline", help="write a store's runs and figures as a baseline file")
-    b.add_argument("--store", type=Path, default=DEFAULT_PATH, help="results store file")
-    b.add_argument("-o", "--output", type=Path, required=True, help="baseline file to write")
+    b = _subcommand(
+        sub, "baseline", "write a store's runs and figures as a baseline file", "harness/README.md"
+    )
+    _store(b)
+    b.add_argument(
+        "-o", "--output", type=Path, required=True, metavar="FILE", help="baseline file to write"
+    )
     _command(b, "gate:baseline_command")
 
 
 def _check(sub: Any) -> None:
-    c = sub.add_parser(
-        "check", help="compare a fresh campaign with a baseline; exit 1 on a regression"
+    c = _subcommand(
+        sub,
+        "check",
+        "compare a fresh campaign with a baseline; exit 1 on a regression",
+        "harness/README.md",
     )
-    c.add_argument("--baseline", type=Path, required=True, help="baseline file")
     c.add_argument(
-        "--store", type=Path, help="read the fresh runs from this store instead of making them"
+        "--baseline",
+        type=Path,
+        required=True,
+        help="baseline file (`neuroyard baseline` writes it)",
     )
-    c.add_argument("--workers", type=_positive, default=1, help="parallel worker processes")
+    c.add_argument(
+        "--store",
+        type=Path,
+        help="read the fresh runs from this store instead of making them (default: run the "
+        "baseline's campaign afresh)",
+    )
+    c.add_argument(
+        "--workers",
+        type=_positive,
+        default=DEFAULT_WORKERS,
+        help=f"parallel worker processes (default {DEFAULT_WORKERS})",
+    )
     c.add_argument(
         "--alpha",
         type=_level,
@@ -383,8 +539,11 @@ def _check(sub: Any) -> None:
 
 
 def _verify(sub: Any) -> None:
-    v = sub.add_parser(
-        "verify", help="re-check every solved run of a store; exit 1 when a claim does not hold"
+    v = _subcommand(
+        sub,
+        "verify",
+        "re-check every solved run of a store; exit 1 when a claim does not hold",
+        "harness/README.md",
     )
-    v.add_argument("--store", type=Path, default=DEFAULT_PATH, help="results store file")
+    _store(v)
     _command(v, "verify_command:command")

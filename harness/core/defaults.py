@@ -12,6 +12,7 @@ DEFAULT_EVOLVER = "neat"  # the best reference evolver on the quick suite
 QUICK_SUITE = ("xor-v2",)
 DEFAULT_RUNS = 10
 DEFAULT_SEED = 1
+DEFAULT_WORKERS = 1  # worker processes of a campaign
 # the largest campaign seed: SQLite's largest INTEGER (2**63 - 1), where the store keeps it
 MAX_SEED = 2**63 - 1
 

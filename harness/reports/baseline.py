@@ -52,6 +52,7 @@ from neuroyard.records import provenance
 from neuroyard.records.runs import FAILED, SOLVED, UNSOLVED, RunRecord
 from neuroyard.reports import gate
 from neuroyard.reports.gate import ALPHA, Finding, RunFigures
+from neuroyard.reports.labels import configuration_label, task_name
 
 FORMAT = "neuroyard regression baseline"
 FORMAT_VERSION = 1
@@ -137,9 +138,11 @@ class BaselineGroup:
 
     @property
     def label(self) -> str:
-        """How the check names the group: evolver [short hash] on task, budget, seed."""
+        """How the check names the group: evolver [short hash] on task (as reports name
+        them: :mod:`.labels`), budget, seed."""
         return (
-            f"{self.evolver} [{self.config_hash[:6]}] on {self.task} "
+            f"{configuration_label(self.evolver, self.config_hash)} on "
+            f"{task_name(self.task, self.task_settings)} "
             f"(budget {self.budget:,}, seed {self.campaign_seed})"
         )
 

@@ -26,7 +26,9 @@ from typing import Any
 
 from neuroyard.core.defaults import COMPARE_ALPHA, COMPARE_POWER
 from neuroyard.core.errors import NeuroyardError
+from neuroyard.core.numbers import number, value_text
 from neuroyard.records.runs import RunRecord
+from neuroyard.reports.labels import configuration_label, task_labels
 from neuroyard.reports.significance import (
     TestResult,
     censored_evaluations,
@@ -60,11 +62,13 @@ class MetricRow:
 
 @dataclass(frozen=True)
 class TaskComparison:
-    """The rows of one task; ``runs`` = runs compared per side (the run seeds both share,
-    or all runs when they share none), ``notes`` what else a reader must know (runs left
-    out, independent samples, budgets)."""
+    """The rows of one task; ``label`` = the task as reports name it (:mod:`.labels`),
+    ``runs`` = runs compared per side (the run seeds both share, or all runs when they
+    share none), ``notes`` what else a reader must know (runs left out, independent
+    samples, budgets)."""
 
     task: str
+    label: str
     task_settings: dict[str, Any]
     runs: int
     rows: tuple[MetricRow, ...]
@@ -132,10 +136,14 @@ def compare(
 ) -> Comparison:
     """Compare the runs of side A with those of side B (see the module docstring)."""
     groups_a, groups_b = _by_task(a_records), _by_task(b_records)
+    keys = sorted(set(groups_a) | set(groups_b))
+    label = dict(zip(keys, task_labels([(t, json.loads(s)) for t, s in keys]), strict=True))
     notes = []
     for key in sorted(set(groups_a) ^ set(groups_b)):
         side = "A" if key in groups_a else "B"
-        notes.append(f"{key[0]} ({_settings_text(key[1])}) has runs on side {side} only: left out")
+        notes.append(
+            f"{label[key]} ({_settings_text(key[1])}) has runs on side {side} only: left out"
+        )
     pending = []
     for key in sorted(set(groups_a) & set(groups_b)):
         task, settings_text = key
@@ -151,8 +159,9 @@ def compare(
             p = next(adjusted)
             done.append(MetricRow(row.task, row.metric, row.better, row.a, row.b, row.result,
                                   p, row.needed, row.describe(p, alpha)))  # fmt: skip
-        tasks.append(TaskComparison(task, json.loads(settings_text), len(runs_a), tuple(done),
-                                    tuple(task_notes), tuple(runs_a), tuple(runs_b)))  # fmt: skip
+        tasks.append(TaskComparison(task, label[task, settings_text], json.loads(settings_text),
+                                    len(runs_a), tuple(done), tuple(task_notes), tuple(runs_a),
+                                    tuple(runs_b)))  # fmt: skip
     return Comparison(a_label, b_label, alpha, tuple(tasks), tuple(notes))
 
 
@@ -165,7 +174,7 @@ def _by_task(records: Iterable[RunRecord]) -> dict[tuple[str, str], list[RunReco
 
 def _settings_text(settings_json: str) -> str:
     settings = json.loads(settings_json)
-    return ", ".join(f"{k}={v}" for k, v in sorted(settings.items())) or "no settings"
+    return ", ".join(f"{k}={value_text(v)}" for k, v in sorted(settings.items())) or "no settings"
 
 
 def _paired(
@@ -272,7 +281,7 @@ def _solved_figure_row(
     ``phrase`` says what the better side does ("has smaller solutions")."""
     values_a = _numbers(a, value)
     values_b = _numbers(b, value)
-    result = mann_whitney(values_a, values_b)
+    result = mann_whitney(values_a, values_b, "solved runs")
     needed = _needed(result)
 
     def describe(p: float | None, alpha: float) -> str:
@@ -310,7 +319,7 @@ def _no_difference(result: TestResult, n_a: int, n_b: int) -> str:
 
 
 def _rate(wins: int, runs: int) -> str:
-    return f"{wins}/{runs} ({wins / runs:.0%})"
+    return f"{wins}/{runs} ({number(wins / runs, '.0%')})"
 
 
 def _median_text(records: list[RunRecord], value: Any) -> str:
@@ -322,20 +331,20 @@ def _median_text(records: list[RunRecord], value: Any) -> str:
 
 
 def _n(x: float) -> str:
-    return f"{x:,.0f}" if abs(x) >= 100 or x == int(x) else f"{x:,.2f}"
+    return number(x, ",.0f" if abs(x) >= 100 or x == int(x) else ",.2f")
 
 
 def _p(p: float) -> str:
     """``= 0.003`` or ``< 0.001``, to follow a "p"."""
-    return f"= {p:.2g}" if p >= 0.001 else "< 0.001"
+    return f"= {number(p, '.2g')}" if p >= 0.001 else "< 0.001"
 
 
 def configurations(records: Iterable[RunRecord]) -> dict[str, list[RunRecord]]:
     """Records by configuration label, ``evolver [hash6]`` (the hash of the effective
-    configuration, as reports print it)."""
+    configuration, as reports print it: :func:`.labels.configuration_label`)."""
     out: dict[str, list[RunRecord]] = {}
     for r in records:
-        out.setdefault(f"{r.evolver} [{r.config_hash[:6]}]", []).append(r)
+        out.setdefault(configuration_label(r.evolver, r.config_hash), []).append(r)
     return out
 
 

@@ -6,14 +6,14 @@ verdicts below it, one per line. Tables and Markdown headings are never broken.
 
 from __future__ import annotations
 
-import textwrap
-
 from tabulate import tabulate
 
 from neuroyard.core import jsonsafe
 from neuroyard.core.errors import TaskError
+from neuroyard.core.numbers import number, value_text
 from neuroyard.reports.compare import Comparison, MetricRow
 from neuroyard.reports.markdown import escape
+from neuroyard.reports.wrapping import wrap
 from neuroyard.tasks.registry import task_class
 
 NOTES = (
@@ -40,7 +40,7 @@ def comparison_text(comparison: Comparison, fmt: str = "text") -> str:
     lines = _wrapped([bullet + shown(line) for line in lines] if markdown else lines)
     for task in comparison.tasks:
         settings = settings_text(task.task, task.task_settings)
-        title = f"{task.task} ({settings}): {task.runs} runs"
+        title = f"{task.label} ({settings}): {task.runs} runs"
         lines += ["", f"### {shown(title)}"] if markdown else ["", *_wrapped([title])]
         lines += _wrapped([f"{bullet}{shown(f'note: {note}')}" for note in task.notes])
         if not task.rows:
@@ -68,7 +68,7 @@ def settings_text(task_id: str, settings: dict) -> str:
     except TaskError:  # a task not installed here: every setting
         defaults = {}
     changed = {k: v for k, v in sorted(settings.items()) if k not in defaults or defaults[k] != v}
-    return ", ".join(f"{k}={v}" for k, v in changed.items()) or "default settings"
+    return ", ".join(f"{k}={value_text(v)}" for k, v in changed.items()) or "default settings"
 
 
 def comparison_markdown(comparison: Comparison) -> str:
@@ -83,7 +83,7 @@ def effect_text(row: MetricRow) -> str:
     effect = row.result.effect
     if effect is None:
         return "-"
-    return f"{effect:+.2f}" if row.result.test == "Fisher exact" else f"{effect:.2f}"
+    return number(effect, "+.2f" if row.result.test == "Fisher exact" else ".2f")
 
 
 def runs_text(row: MetricRow) -> str:
@@ -94,16 +94,17 @@ def runs_text(row: MetricRow) -> str:
 def p_text(p: float | None) -> str:
     if p is None:
         return "not run"
-    return f"{p:.2g}" if p >= 0.001 else "< 0.001"
+    return number(p, ".2g") if p >= 0.001 else "< 0.001"
 
 
 def _wrapped(lines: list[str], width: int = 120) -> list[str]:
-    """Prose lines longer than ``width`` broken at spaces."""
+    """Prose lines longer than ``width`` broken at spaces (a word longer than a line after
+    its separators: :func:`.wrapping.wrap`)."""
     out = []
     for line in lines:
         if len(line) <= width:
             out.append(line)
             continue
-        indent = len(line) - len(line.lstrip())
-        out += textwrap.wrap(line, width, subsequent_indent=" " * (indent + 2))
+        indent = line[: len(line) - len(line.lstrip())]
+        out += wrap(line, width, indent, indent + "  ")
     return out

@@ -5,21 +5,25 @@ The text, Markdown and HTML renderers lay out the same :class:`Document`, so eve
 shows the same figures formatted the same way. Numbers: thousands separators everywhere,
 and the same digits for the same kind of figure (:func:`figure`): evaluations (and ERT)
 whole, generations to one decimal, network sizes to two, counts whole, task metrics to
-one, ratios to two, rates as whole percentages. A value that does not exist is ``—``; where
-the reason is not obvious (an ERT with no solved run) a footnote says why. Nothing user
-supplied is marked up here: each renderer escapes for its own format.
+one, ratios to two, rates as whole percentages, never a negative zero
+(:func:`neuroyard.core.numbers.number`). An interval is ``low-high``, ``≥ low`` when it has
+no upper end (:func:`interval`). A value that does not exist is ``—``; where the reason is
+not obvious (an ERT with no solved run, an open interval) a footnote says why. Tasks and
+configurations are named by :mod:`.labels`. Nothing user supplied is marked up here: each
+renderer escapes for its own format.
 """
 
 from __future__ import annotations
 
-import hashlib
 import json
 import math
 import re
-from collections.abc import Hashable, Mapping, Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
+from neuroyard.core.numbers import number, value_text
+from neuroyard.reports.labels import configuration_label, disambiguated, task_labels
 from neuroyard.reports.report import Comparison, ReportRow
 
 DASH = "—"  # a value that does not exist
@@ -49,9 +53,9 @@ def figure(name: str, value: float | None) -> str:
     if value is None:
         return DASH
     if name == "success_rate":
-        return f"{value:.0%}"
+        return number(value, ".0%")
     digits = _DIGITS.get(_PREFIX.sub("", name), METRIC_DIGITS)
-    return f"{value:,.{digits}f}"
+    return number(value, f",.{digits}f")
 
 
 def count(value: int) -> str:
@@ -61,7 +65,7 @@ def count(value: int) -> str:
 
 def ratio(value: float | None) -> str:
     """A ratio of two figures, two decimals; :data:`DASH` for None."""
-    return DASH if value is None else f"{value:,.2f}"
+    return DASH if value is None else number(value, ",.2f")
 
 
 def p_value(value: float | None, test: str) -> str:
@@ -69,20 +73,22 @@ def p_value(value: float | None, test: str) -> str:
     (``test`` starts with "not run"), else :data:`DASH`."""
     if value is None:
         return test if test.startswith("not run") else DASH
-    return f"{value:.2g} ({test})"
+    return f"{number(value, '.2g')} ({test})"
 
 
 @dataclass(frozen=True)
 class Table:
     """One table: header, rows of formatted cells, which columns hold numbers (aligned
-    right), an optional caption (the group it shows) and the footnotes its cells cite, as
-    (number, text)."""
+    right), an optional caption (the group it shows), the footnotes its cells cite first in
+    the document, as (number, text), and the numbers of those it cites that an earlier
+    table printed (:func:`see_above` names them)."""
 
     head: tuple[str, ...]
     body: tuple[tuple[str, ...], ...]
     numeric: tuple[bool, ...]
     caption: str = ""
     notes: tuple[tuple[int, str], ...] = ()
+    earlier: tuple[int, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -119,54 +125,42 @@ class Document:
 
 class Footnotes:
     """The numbered footnotes of one document: the same text keeps its number in every
-    table that cites it."""
+    table that cites it and is printed once, under the first table that cites it (tables
+    are laid out in the order they are made)."""
 
     def __init__(self) -> None:
         self._numbers: dict[str, int] = {}
+        self._printed_by: dict[int, dict[int, str | None]] = {}  # the first citing table's
 
-    def cite(self, text: str, used: dict[int, str]) -> str:
-        """The marker (``[n]``) of ``text``; records the note in ``used`` (the table's)."""
+    def cite(self, text: str, used: dict[int, str | None]) -> str:
+        """The marker (``[n]``) of ``text``; records the note in ``used`` (the table's): its
+        text where this table is the first to cite it, else None (printed above)."""
         number = self._numbers.setdefault(text, len(self._numbers) + 1)
-        used[number] = text
+        first = self._printed_by.setdefault(number, used)
+        used[number] = text if first is used else None
         return f"[{number}]"
 
 
-def short_hash(value: Any) -> str:
-    """Six hex digits identifying a JSON-able value (a task's settings)."""
-    text = json.dumps(value, sort_keys=True, default=str)
-    return hashlib.sha256(text.encode()).hexdigest()[:6]
-
-
-def labels(keys: Sequence[tuple[str, Hashable]], hashes: Mapping[Hashable, str]) -> list[str]:
-    """A label per (name, identity) key: the name, followed by ``[hash]`` (from ``hashes``)
-    only when the same name comes with more than one identity among ``keys``."""
-    identities: dict[str, set[Hashable]] = {}
-    for name, identity in keys:
-        identities.setdefault(name, set()).add(identity)
-    return [
-        f"{name} [{hashes[identity]}]" if len(identities[name]) > 1 else name
-        for name, identity in keys
-    ]
+def see_above(numbers: Sequence[int]) -> str:
+    """The line under a table that cites footnotes an earlier table printed."""
+    return f"see above for {', '.join(f'[{n}]' for n in numbers)}"
 
 
 def row_labels(rows: Sequence[ReportRow]) -> list[tuple[str, str]]:
     """(evolver label, task label) of each row: the evolver with its configuration hash
-    when several configurations of it are reported, the task with a hash of its settings
-    when it was run under several."""
-    evolvers = labels(
+    when several configurations of it are reported, the task as :func:`.labels.task_labels`
+    names it (with a hash of its settings where it was run under several)."""
+    evolvers = disambiguated(
         [(r.evolver, r.config_hash) for r in rows], {r.config_hash: r.config_hash[:6] for r in rows}
     )
-    settings = [json.dumps(r.task_settings, sort_keys=True, default=str) for r in rows]
-    tasks = labels(
-        [(r.task, s) for r, s in zip(rows, settings, strict=True)],
-        {s: short_hash(r.task_settings) for r, s in zip(rows, settings, strict=True)},
-    )
+    tasks = task_labels([(r.task, r.task_settings) for r in rows])
     # the same task and settings under several budgets: the budget joins the label
+    settings = [json.dumps(r.task_settings, sort_keys=True, default=str) for r in rows]
     budgets: dict[tuple[str, str], set[int]] = {}
     for r, s in zip(rows, settings, strict=True):
         budgets.setdefault((r.task, s), set()).add(_budget(r))
     tasks = [
-        f"{label} (budget {_budget(r):,})" if len(budgets[r.task, s]) > 1 else label
+        f"{label} (budget {count(_budget(r))})" if len(budgets[r.task, s]) > 1 else label
         for label, r, s in zip(tasks, rows, settings, strict=True)
     ]
     return list(zip(evolvers, tasks, strict=True))
@@ -188,21 +182,23 @@ def _table(
     body: Sequence[Sequence[str]],
     numeric: Sequence[bool],
     caption: str = "",
-    notes: Mapping[int, str] | None = None,
+    notes: Mapping[int, str | None] | None = None,
 ) -> Table:
+    cited = sorted((notes or {}).items())
     return Table(
         tuple(head),
         tuple(tuple(row) for row in body),
         tuple(numeric),
         caption,
-        tuple(sorted((notes or {}).items())),
+        tuple((n, text) for n, text in cited if text is not None),
+        tuple(n for n, text in cited if text is None),
     )
 
 
 def _summary(rows: Sequence[ReportRow], names: Sequence[tuple[str, str]], fn: Footnotes) -> Section:
     """Three tables: what became of every run, the figures over the solved runs, and their
     medians and quartiles."""
-    outcome_notes: dict[int, str] = {}
+    outcome_notes: dict[int, str | None] = {}
     outcomes = []
     for r, (evolver, task) in zip(rows, names, strict=True):
         s = r.summary
@@ -216,11 +212,13 @@ def _summary(rows: Sequence[ReportRow], names: Sequence[tuple[str, str]], fn: Fo
                 count(s.runs),
                 count(s.solved),
                 count(s.failed),
-                f"{s.success_rate:.0%} ({s.success_ci[0]:.0%}-{s.success_ci[1]:.0%})",
+                f"{figure('success_rate', s.success_rate)} "
+                f"({interval(s.success_ci, 'success_rate')})",
                 ert,
             ]
         )
-    solved_notes: dict[int, str] = {}
+    solved_notes: dict[int, str | None] = {}
+    spread_notes: dict[int, str | None] = {}
     solved = []
     for r, (evolver, task) in zip(rows, names, strict=True):
         s = r.summary
@@ -240,7 +238,7 @@ def _summary(rows: Sequence[ReportRow], names: Sequence[tuple[str, str]], fn: Fo
             task,
             _quartiles(r.summary.quartiles_evaluations, "median_evaluations"),
             _quartiles(r.summary.quartiles_generations, "mean_generations"),
-            _interval(r.summary.ert_ci),
+            _ert_interval(r.summary.ert_ci, fn, spread_notes),
         ]
         for r, (evolver, task) in zip(rows, names, strict=True)
         if r.summary.solved
@@ -276,18 +274,42 @@ def _summary(rows: Sequence[ReportRow], names: Sequence[tuple[str, str]], fn: Fo
                 [False, False, True, True, True],
                 caption="Spread: first quartile, median and third quartile over the solved runs; "
                 "95% bootstrap interval of the ERT, resampling whole runs",
+                notes=spread_notes,
             ),
         ),
     )
 
 
-def _interval(interval: tuple[float, float] | None) -> str:
-    """``low-high`` in the ERT's format; an infinite end (too many resamples without a
-    solved run) is shown as ``—``."""
-    if interval is None:
+OPEN_ABOVE = "≥"  # an interval with no upper end: "≥ 200"
+UNBOUNDED = "unbounded"  # an interval with no end at all
+OPEN_ERT_INTERVAL = (
+    f"{OPEN_ABOVE} x: the interval has no upper end, only the lower end x: so many of the "
+    "resamples held no solved run (whose ERT is infinite) that its upper end is infinite"
+)
+
+
+def interval(bounds: tuple[float, float] | None, kind: str) -> str:
+    """A confidence interval, each end formatted as a figure of ``kind``: ``low-high``;
+    one open above (an infinite upper end) is ``≥ low``, one open at both ends
+    ``unbounded``; :data:`DASH` for None."""
+    if bounds is None:
         return DASH
-    low, high = (DASH if math.isinf(x) else figure("ert", x) for x in interval)
-    return f"{low}-{high}"
+    low, high = bounds
+    if math.isinf(low):
+        return UNBOUNDED
+    if math.isinf(high):
+        return f"{OPEN_ABOVE} {figure(kind, low)}"
+    return f"{figure(kind, low)}-{figure(kind, high)}"
+
+
+def _ert_interval(
+    bounds: tuple[float, float] | None, fn: Footnotes, notes: dict[int, str | None]
+) -> str:
+    """The ERT's bootstrap interval; an open one cites :data:`OPEN_ERT_INTERVAL`."""
+    text = interval(bounds, "ert")
+    if bounds is not None and math.isinf(bounds[1]):
+        text += f" {fn.cite(OPEN_ERT_INTERVAL, notes)}"
+    return text
 
 
 def _quartiles(q: tuple[float, float, float] | None, kind: str) -> str:
@@ -300,7 +322,7 @@ def _metrics(
 ) -> Section | None:
     """The task-declared metrics: mean over solved runs, unit, direction; the meaning of
     each metric in a footnote."""
-    notes: dict[int, str] = {}
+    notes: dict[int, str | None] = {}
     body = [
         [
             evolver,
@@ -342,7 +364,7 @@ def _failures(rows: Sequence[ReportRow], names: Sequence[tuple[str, str]]) -> Se
 FROM_MEMORY = "recalled from memory: information only, never a pass/fail check"
 
 
-def _published_row(c: Comparison, fn: Footnotes, notes: dict[int, str]) -> list[str]:
+def _published_row(c: Comparison, fn: Footnotes, notes: dict[int, str | None]) -> list[str]:
     provenance = c.provenance + (f" {fn.cite(FROM_MEMORY, notes)}" if c.from_memory else "")
     if c.comparable:
         verdict = "yes"
@@ -370,7 +392,7 @@ def _published(
     for r, (evolver, task) in zip(rows, names, strict=True):
         if not r.comparisons:
             continue
-        notes: dict[int, str] = {}
+        notes: dict[int, str | None] = {}
         body = [_published_row(c, fn, notes) for c in r.comparisons]
         head = ["method", "metric", "measured", "published", "ratio", "p (test)", "provenance"]
         tables.append(
@@ -388,12 +410,8 @@ def _published(
     return Section(title, tuple(tables))
 
 
-def _setting(value: Any) -> str:
-    return f"{value:.6g}" if isinstance(value, float) else str(value)
-
-
 def _pairs(settings: Mapping[str, Any]) -> tuple[tuple[str, str], ...]:
-    return tuple((k, _setting(v)) for k, v in sorted(settings.items()))
+    return tuple((k, value_text(v)) for k, v in sorted(settings.items()))
 
 
 def _settings(
@@ -411,7 +429,7 @@ def _settings(
     # configuration, or one per distinct set of its settings, naming the tasks of each
     by_configuration: dict[str, dict[tuple, list[str]]] = {}
     for r, (_, task) in zip(rows, names, strict=True):
-        heading = f"evolver {r.evolver} [{r.config_hash[:6]}]"
+        heading = f"evolver {configuration_label(r.evolver, r.config_hash)}"
         given = {k: r.evolver_settings.get(k, v) for k, v in r.evolver_config.items()}
         defaults = {k: v for k, v in r.evolver_settings.items() if k not in given}
         parts = [("set for these runs", _pairs(given))] if given else []
@@ -440,8 +458,9 @@ NOTES = (
     "The six characters in brackets after an evolver's name (as in name [1a2b3c]) begin "
     "the hash of the evolver's effective configuration: every option with its value, "
     "defaults included. The same name and hash is the same configuration; the settings "
-    "list each one. The same brackets after a task's id identify its settings, where a "
-    "task was run under more than one.",
+    "list each one. A task is named as it is given on the command line: gym:ENV_ID for a "
+    "Gymnasium environment, maze:PATH for a maze file, else its id. The same brackets "
+    "after a task's name identify its settings, where it was run under more than one.",
     "p: two-sided p-value that the measured and the published runs have the same mean "
     "(Welch's t-test) or the same success rate (Fisher's exact test), where the paper "
     "gives the run count and spread the test needs. A comparable figure was measured under "

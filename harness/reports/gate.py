@@ -50,6 +50,7 @@ from neuroyard.core.defaults import (
     SPEED_DROP,
     SUCCESS_DROP,
 )
+from neuroyard.core.numbers import number
 from neuroyard.records.runs import FAILED, SOLVED, RunRecord
 from neuroyard.reports.significance import (
     TestResult,
@@ -255,7 +256,14 @@ def _findings(group: GroupRuns) -> list[Finding]:
     co_b, co_f = sizes(base), sizes(fresh)
     med_b, med_f = _median(co_b), _median(co_f)
     out.append(
-        Finding("connections", label, med_b, med_f, _ratio(med_b, med_f), mann_whitney(co_b, co_f))
+        Finding(
+            "connections",
+            label,
+            med_b,
+            med_f,
+            _ratio(med_b, med_f),
+            mann_whitney(co_b, co_f, "solved runs"),
+        )
     )
 
     def speeds(runs: list[RunFigures]) -> list[float]:
@@ -265,7 +273,7 @@ def _findings(group: GroupRuns) -> list[Finding]:
 
     sp_b, sp_f = speeds(base), speeds(fresh)
     med_b, med_f = _median(sp_b), _median(sp_f)
-    test = mann_whitney(sp_b, sp_f)
+    test = mann_whitney(sp_b, sp_f, "runs with a relative speed")
     missing = [side for side, values in (("baseline's", sp_b), ("fresh", sp_f)) if not values]
     if missing:
         test = TestResult(
@@ -319,7 +327,7 @@ def line(finding: Finding) -> str:
         return f"{head}: {finding.test.reason}"
     base = _figure(finding, finding.baseline, "baseline")
     fresh = _figure(finding, finding.fresh, "fresh")
-    p = f"{finding.p_holm:.2g}"
+    p = number(finding.p_holm, ".2g")
     if finding.verdict in (NO_CHANGE, SMALL):  # briefly
         return f"{head}: {base} -> {fresh} ({_change(finding)}, p {p})"
     return (
@@ -332,19 +340,19 @@ def _figure(finding: Finding, value: float | None, side: str) -> str:
     if value is None:
         return "-"
     if finding.metric == "success rate":
-        return f"{100 * value:.1f}%"
+        return number(100 * value, ".1f") + "%"
     if finding.metric == "evaluations to solve" and finding.censored in (side, "both"):
         return f"more than {finding.budget:,} (unsolved)"
     if finding.metric == "relative speed":
-        return f"{value:,.1f} evaluations per calibration unit"
-    return f"{value:,.1f}" if value != int(value) else f"{int(value):,}"
+        return f"{number(value, ',.1f')} evaluations per calibration unit"
+    return number(value, ",.1f") if value != int(value) else number(int(value), ",d")
 
 
 def _change(finding: Finding) -> str:
     if finding.change is None:
         return "-"
     if finding.metric == "success rate":
-        return f"{100 * finding.change:+.1f} points"
-    text = f"{100 * finding.change:+.1f}%"
+        return f"{number(100 * finding.change, '+.1f')} points"
+    text = number(100 * finding.change, "+.1f") + "%"
     bound = {"fresh": " or more", "baseline": " or less"}.get(finding.censored, "")
     return "-" if finding.censored == "both" else text + bound

@@ -6,7 +6,8 @@ the text report (:func:`.document.document`), the plots of each task (for a task
 draws runs, the mazes, also the picture of one run: :mod:`.run_picture`), the settings
 and the notes. The template (``templates/report.html.j2``) is rendered by jinja2 with
 autoescaping, so every string from the runs (evolver names, task ids, settings, failure
-reasons, sources) is shown as text, never read as markup.
+reasons, sources) is shown as text, never read as markup; text cells and headings pass
+through :func:`breakable`, which marks where a long name may break (``<wbr>``).
 """
 
 from __future__ import annotations
@@ -16,6 +17,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 from jinja2 import Environment, PackageLoader, StrictUndefined
+from markupsafe import Markup, escape
 
 from neuroyard.records.runs import RunRecord
 from neuroyard.reports import plots
@@ -27,9 +29,10 @@ from neuroyard.reports.comparison_renderers import (
     runs_text,
     settings_text,
 )
-from neuroyard.reports.document import document
+from neuroyard.reports.document import document, see_above
 from neuroyard.reports.report import ReportRow
 from neuroyard.reports.run_picture import run_picture
+from neuroyard.reports.wrapping import pieces
 from neuroyard.tasks import Metric, declared_metrics
 
 _ENV = Environment(
@@ -37,6 +40,18 @@ _ENV = Environment(
     autoescape=True,
     undefined=StrictUndefined,
 )
+
+
+def breakable(text: object) -> Markup:
+    """``text`` escaped, with ``<wbr>`` after each run of separators (:mod:`.wrapping`), so
+    a browser breaks a long name (``plugins_for_tests:Constant``) there or at a space, never
+    inside a word. The template's filter ``breakable``, for every cell and heading of
+    text."""
+    return Markup("<wbr>").join(escape(piece) for piece in pieces(str(text)))
+
+
+_ENV.filters["breakable"] = breakable
+_ENV.globals["see_above"] = see_above
 
 ECDF_CAPTION = (
     "Fraction of all runs (failed and unsolved ones included) solved within each count of "
@@ -135,7 +150,7 @@ def render_comparison_html(comparison: Comparison) -> str:
                 "task": task,
                 "settings": settings_text(task.task, task.task_settings),
                 "rows": list(zip(task.rows, cells, strict=True)),
-                "plots": task_plots(task.task, groups, metrics),
+                "plots": task_plots(task.label, groups, metrics),
             }
         )
     page = _ENV.get_template("comparison.html.j2")

@@ -15,6 +15,9 @@ when the records hold nothing to draw. What is drawn:
 
 The numbers behind the first two are :func:`solved_fraction` and
 :func:`best_fitness_quartiles`.
+
+The legend of the first two stands below the axes, outside them, so it covers no curve
+(:func:`ecdf_figure` and :func:`fitness_figure` give the figures themselves).
 """
 
 from __future__ import annotations
@@ -77,6 +80,18 @@ def _figure(rows: int = 1, cols: int = 1, height: float = 3.6) -> tuple[Any, Any
     return fig, fig.subplots(rows, cols, squeeze=False)
 
 
+def _legend(fig: Any, ax: Any) -> None:
+    """The legend of the series drawn on ``ax``, outside the axes below them (the
+    constrained layout makes room for it), so it never covers a curve."""
+    handles, labels = ax.get_legend_handles_labels()
+    fig.legend(handles, labels, loc="outside lower center", fontsize="small", frameon=False)
+
+
+def _series_height(series: int) -> float:
+    """Height of a figure whose legend lists ``series`` lines below the axes."""
+    return 3.2 + 0.2 * series
+
+
 def _png(fig: Any) -> bytes:
     out = io.BytesIO()
     fig.savefig(out, format="png", dpi=DPI)
@@ -85,11 +100,17 @@ def _png(fig: Any) -> bytes:
 
 def ecdf_png(groups: Groups, task: str) -> bytes | None:
     """The runtime distribution of each group on ``task`` (see the module docstring)."""
+    fig = ecdf_figure(groups, task)
+    return None if fig is None else _png(fig)
+
+
+def ecdf_figure(groups: Groups, task: str) -> Any:
+    """The matplotlib figure of :func:`ecdf_png` (None when there is nothing to draw)."""
     spent = [r.evaluations for records in groups.values() for r in records if r.evaluations > 0]
     if not spent:
         return None
     first, last = min(spent), max(spent)
-    fig, axes = _figure()
+    fig, axes = _figure(height=_series_height(len(groups)))
     ax = axes[0][0]
     for label, records in groups.items():
         x, y = solved_fraction(records)
@@ -103,16 +124,22 @@ def ecdf_png(groups: Groups, task: str) -> bytes | None:
     ax.set_ylabel("fraction of runs solved")
     ax.set_title(_text(f"{task}: runs solved within an evaluation count"))
     ax.grid(True, which="both", alpha=0.3)
-    ax.legend(fontsize="small", loc="upper left")
-    return _png(fig)
+    _legend(fig, ax)
+    return fig
 
 
 def fitness_png(groups: Groups, task: str, points: int = 200) -> bytes | None:
     """Median and interquartile band of the best fitness so far against evaluations, per
     group on ``task``; None when no run has a generation log. ``points``: evaluation
     counts per curve (at most; evenly spaced on the log axis)."""
+    fig = fitness_figure(groups, task, points)
+    return None if fig is None else _png(fig)
+
+
+def fitness_figure(groups: Groups, task: str, points: int = 200) -> Any:
+    """The matplotlib figure of :func:`fitness_png` (None when there is nothing to draw)."""
     drawn = False
-    fig, axes = _figure()
+    fig, axes = _figure(height=_series_height(len(groups)))
     ax = axes[0][0]
     for label, records in groups.items():
         spent = [g.evaluations for r in records for g in r.log if g.evaluations > 0]
@@ -130,8 +157,8 @@ def fitness_png(groups: Groups, task: str, points: int = 200) -> bytes | None:
     ax.set_ylabel("best fitness so far")
     ax.set_title(_text(f"{task}: median best fitness, quartile band"))
     ax.grid(True, which="both", alpha=0.3)
-    ax.legend(fontsize="small", loc="lower right")
-    return _png(fig)
+    _legend(fig, ax)
+    return fig
 
 
 def _boxes(ax: Any, data: Mapping[str, Sequence[float]], xlabel: str) -> None:

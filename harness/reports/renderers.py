@@ -2,9 +2,11 @@
 
 A renderer turns one kind of document into text: a function ``(document) -> str``. Two
 kinds: ``report`` (report rows, :func:`.report.build`) and ``comparison`` (a
-:class:`.compare.Comparison`). For reports, Built in: ``text`` (tables that fit 120 columns) and ``markdown``
-(GitHub tables), both laid out from :func:`.document.document`; ``json`` (a list of rows,
-strict JSON); ``html`` (a self-contained page with plots, :mod:`.html`). Register another
+:class:`.compare.Comparison`). For reports, built in: ``text`` (tables that fit 120
+columns; cells break at spaces and separators, never inside a word: :mod:`.wrapping`) and
+``markdown`` (GitHub tables), both laid out from :func:`.document.document`; ``json`` (a
+list of rows, strict JSON, with the labels the tables show); ``html`` (a self-contained
+page with plots, :mod:`.html`). Register another
 with :func:`register_renderer`, or from another package through the entry-point group
 ``neuroyard.renderers`` (the target is the function); ``neuroyard report --format NAME``
 then finds it. Comparisons have ``text``, ``markdown``, ``json`` and ``html``
@@ -14,7 +16,6 @@ then finds it. Comparisons have ``text``, ``markdown``, ``json`` and ``html``
 
 from __future__ import annotations
 
-import textwrap
 from collections.abc import Callable, Sequence
 from importlib.metadata import entry_points
 from typing import Any
@@ -24,9 +25,10 @@ from tabulate import MIN_PADDING, tabulate
 from neuroyard.core import jsonsafe
 from neuroyard.core.errors import NeuroyardError
 from neuroyard.reports import comparison_renderers, html
-from neuroyard.reports.document import SettingsGroup, Table, document
+from neuroyard.reports.document import SettingsGroup, Table, document, row_labels, see_above
 from neuroyard.reports.markdown import escape
 from neuroyard.reports.report import ReportRow
+from neuroyard.reports.wrapping import pieces, wrap
 
 ENTRY_POINT_GROUPS = {
     "report": "neuroyard.renderers",
@@ -90,25 +92,46 @@ def _width(text: str) -> int:
     return max((len(line) for line in text.splitlines()), default=0)
 
 
+def _longest_piece(text: str) -> int:
+    """The longest stretch of ``text`` that :func:`.wrapping.wrap` never breaks."""
+    return max((len(p) for word in text.split() for p in pieces(word)), default=0)
+
+
 def _fit(table: Table) -> tuple[list[int | None], list[int | None]]:
     """(cell widths, header widths) at which to wrap each column so that the text table
-    fits :data:`WIDTH` (None: as wide as it needs). The widest text column is narrowed
-    first; numbers are never wrapped. A column is as wide as its widest cell and at least
-    its header plus tabulate's padding of headers."""
-    cells = [max((_width(row[i]) for row in table.body), default=0) for i in range(len(table.head))]
+    fits :data:`WIDTH` (None: as wide as it needs). The widest text column that can still
+    be narrowed is narrowed first, down to :data:`_MIN_WRAP` or its longest unbreakable
+    piece (:mod:`.wrapping`: cells break at spaces and separators, never inside a word);
+    numbers are never wrapped. A column is as wide as its widest cell and at least its
+    header plus tabulate's padding of headers."""
+    columns = range(len(table.head))
+    cells = [max((_width(row[i]) for row in table.body), default=0) for i in columns]
     heads = [_width(h) + MIN_PADDING for h in table.head]
     natural = [max(c, h) for c, h in zip(cells, heads, strict=True)]
+    floor = [
+        max(
+            _MIN_WRAP,
+            _longest_piece(table.head[i]) + MIN_PADDING,
+            *(_longest_piece(row[i]) for row in table.body),
+        )
+        for i in columns
+    ]
     fitted = list(natural)
     text = [i for i, numeric in enumerate(table.numeric) if not numeric]
-    while text and sum(fitted) + _GAP * (len(fitted) - 1) > WIDTH:
-        widest = max(text, key=lambda i: fitted[i])
-        if fitted[widest] <= _MIN_WRAP:
+    while sum(fitted) + _GAP * (len(fitted) - 1) > WIDTH:
+        narrower = [i for i in text if fitted[i] > floor[i]]
+        if not narrower:
             break
-        fitted[widest] -= 1
+        fitted[max(narrower, key=lambda i: fitted[i])] -= 1
     return (
         [w if w < c else None for w, c in zip(fitted, cells, strict=True)],
         [w - MIN_PADDING if w < h else None for w, h in zip(fitted, heads, strict=True)],
     )
+
+
+def _wrapped(text: str, width: int | None) -> str:
+    """A table cell broken into lines of at most ``width`` (None: as it is)."""
+    return text if width is None else "\n".join(wrap(text, width))
 
 
 def _table(table: Table, fmt: str) -> list[str]:
@@ -119,37 +142,32 @@ def _table(table: Table, fmt: str) -> list[str]:
         body = [[escape(c) for c in row] for row in table.body]
         out = [f"#### {escape(table.caption)}", ""] if table.caption else []
         out.append(tabulate(body, head, "github", disable_numparse=True, colalign=align))
-        if table.notes:
+        if table.notes or table.earlier:
             out += ["", *(f"- [{n}] {escape(text)}" for n, text in table.notes)]
+            out += [f"- {escape(see_above(table.earlier))}"] if table.earlier else []
         return out
     widths, head_widths = _fit(table)
     out = [*_wrap(table.caption), ""] if table.caption else []
     grid = tabulate(
-        table.body,
-        table.head,
+        [[_wrapped(c, w) for c, w in zip(row, widths, strict=True)] for row in table.body],
+        [_wrapped(h, w) for h, w in zip(table.head, head_widths, strict=True)],
         "simple",
         disable_numparse=True,
         colalign=align,
-        maxcolwidths=widths,
-        maxheadercolwidths=head_widths,
     )
     out += grid.splitlines()
-    if table.notes:
+    if table.notes or table.earlier:
         out.append("")
         for n, text in table.notes:
             out += _wrap(f"[{n}] {text}", indent="  ", hang="      ")
+        if table.earlier:
+            out += _wrap(see_above(table.earlier), indent="  ", hang="      ")
     return out
 
 
 def _wrap(text: str, indent: str = "", hang: str | None = None) -> list[str]:
     """A line of prose wrapped to :data:`WIDTH` (continuation lines indented by ``hang``)."""
-    return textwrap.wrap(
-        text,
-        WIDTH,
-        initial_indent=indent,
-        subsequent_indent=indent if hang is None else hang,
-        break_on_hyphens=False,
-    ) or [indent.rstrip()]
+    return wrap(text, WIDTH, indent, hang)
 
 
 def _heading(title: str, fmt: str) -> list[str]:
@@ -210,7 +228,15 @@ def render_markdown(rows: Sequence[ReportRow]) -> str:
 
 @register_renderer("json")
 def render_json(rows: Sequence[ReportRow]) -> str:
-    return jsonsafe.dumps([r.to_json() for r in rows], indent=2)
+    """The rows as a JSON list, each with the labels the other formats show it under
+    (``evolver_label``, ``task_label``) beside its ids."""
+    return jsonsafe.dumps(
+        [
+            {**r.to_json(), "evolver_label": evolver, "task_label": task}
+            for r, (evolver, task) in zip(rows, row_labels(rows), strict=True)
+        ],
+        indent=2,
+    )
 
 
 render_html = register_renderer("html", with_log=True)(html.render_html)

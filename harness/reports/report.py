@@ -124,10 +124,12 @@ def _test(metric: str, published: Mapping[str, float], s: GroupSummary) -> tuple
     if not metric.startswith("mean_") or sd_key not in published or "failures" not in published:
         return None, ""
     mean, sd = getattr(s, metric, None), getattr(s, sd_key, None)
-    if mean is None or sd is None:
+    if mean is None:
         return None, ""
     solved_published = int(runs - published["failures"])
-    reason = welch_not_run(sd, s.solved, published[sd_key], solved_published)
+    # the means and their spreads are over solved runs, on both sides (no spread, None,
+    # where fewer than 2 runs solved: the reason says so before the spread is looked at)
+    reason = welch_not_run(sd or 0.0, s.solved, published[sd_key], solved_published, "solved runs")
     if reason:
         return None, reason
     p = welch_p_value(mean, sd, s.solved, published[metric], published[sd_key], solved_published)

@@ -78,14 +78,16 @@ def a12(a: Sequence[float], b: Sequence[float]) -> float:
     return float(((x > y).sum() + 0.5 * (x == y).sum()) / (x.size * y.size))
 
 
-def mann_whitney(a: Sequence[float], b: Sequence[float]) -> TestResult:
+def mann_whitney(a: Sequence[float], b: Sequence[float], counted: str = "runs") -> TestResult:
     """Two-sided Mann-Whitney U test (scipy.stats.mannwhitneyu: exact for small samples
-    without ties, else the normal approximation with tie correction) with A12 as effect."""
+    without ties, else the normal approximation with tie correction) with A12 as effect.
+    ``counted`` says what each value is the value of ("runs", "solved runs"), for the
+    reason of a test not run."""
     n_a, n_b = len(a), len(b)
     name = "Mann-Whitney U"
     if n_a < MIN_RUNS or n_b < MIN_RUNS:
         return TestResult(name, None, None, "A12", n_a, n_b,
-                          f"fewer than {MIN_RUNS} runs in a group (n = {n_a} and {n_b})")  # fmt: skip
+                          f"fewer than {MIN_RUNS} {counted} in a group (n = {n_a} and {n_b})")  # fmt: skip
     effect = a12(a, b)
     if len(set(map(float, a)) | set(map(float, b))) == 1:
         return TestResult(name, None, effect, "A12", n_a, n_b, "every run has the same value")

@@ -48,11 +48,12 @@ def welch_p_value(
     return float(result.pvalue)
 
 
-def welch_not_run(sd_a: float, n_a: int, sd_b: float, n_b: int) -> str:
+def welch_not_run(sd_a: float, n_a: int, sd_b: float, n_b: int, counted: str = "runs") -> str:
     """Why Welch's test cannot be run on these samples (empty: it can): a sample of fewer
-    than 2 runs, or one with no spread."""
+    than 2 members, or one with no spread. ``counted`` says what the members are ("runs",
+    "solved runs")."""
     if n_a < 2 or n_b < 2:
-        return "not run: n < 2"
+        return f"not run: fewer than 2 {counted} (n = {n_a} and {n_b})"
     if sd_a == 0.0 or sd_b == 0.0:
         return "not run: no spread"
     return ""

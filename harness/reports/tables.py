@@ -13,7 +13,11 @@ column                      meaning
 ==========================  ==============================================================
 run_key                     the run's identity in the store (24 hex digits)
 evolver, config_hash        the evolver's name and the hash of its effective configuration
-task, run_index             task id; run index within the campaign (0-based)
+task                        task id (the key the store keeps)
+task_label                  the task as reports name it (``gym:CartPole-v1``; with a hash
+                            of its settings where the table holds it under several:
+                            :mod:`.labels`)
+run_index                   run index within the campaign (0-based)
 campaign_seed               the campaign's seed
 seed, task_seed             the evolver's and the task's seeds, derived by the harness
 budget                      evaluations the run could spend
@@ -40,7 +44,7 @@ fact.NAME                   figures of the task instance (a maze's deception sco
 ==========================  ==============================================================
 run_key, evolver,           the run the generation belongs to (as in the runs table)
 config_hash, task,
-run_index
+task_label, run_index
 generation                  0-based
 evaluations                 evaluations so far in the run, this generation's included
 best_fitness, mean_fitness  of this generation's networks
@@ -62,6 +66,7 @@ from typing import IO, Any
 
 from neuroyard.records.runs import SOLVED, RunRecord, record_key
 from neuroyard.reports.gate import relative_speed
+from neuroyard.reports.labels import task_labels
 from neuroyard.tasks import declared_metrics
 
 RUN_COLUMNS: tuple[str, ...] = (
@@ -69,6 +74,7 @@ RUN_COLUMNS: tuple[str, ...] = (
     "evolver",
     "config_hash",
     "task",
+    "task_label",
     "run_index",
     "campaign_seed",
     "seed",
@@ -96,6 +102,7 @@ GENERATION_COLUMNS: tuple[str, ...] = (
     "evolver",
     "config_hash",
     "task",
+    "task_label",
     "run_index",
     "generation",
     "evaluations",
@@ -120,8 +127,13 @@ def _prefixed(prefix: str, values: Mapping[str, Any]) -> dict[str, Any]:
     return {prefix + str(k): _cell(v) for k, v in values.items()}
 
 
-def run_row(record: RunRecord) -> dict[str, Any]:
-    """One run as a row of the runs table (see the module docstring)."""
+def _task_labels(records: Sequence[RunRecord]) -> list[str]:
+    return task_labels([(r.task, r.task_settings) for r in records])
+
+
+def run_row(record: RunRecord, task_label: str) -> dict[str, Any]:
+    """One run as a row of the runs table (see the module docstring), its task labelled
+    ``task_label``."""
     timing = record.timing
     metrics = declared_metrics(record.task, record.task_settings)
     details = record.success_details
@@ -130,6 +142,7 @@ def run_row(record: RunRecord) -> dict[str, Any]:
         "evolver": record.evolver,
         "config_hash": record.config_hash,
         "task": record.task,
+        "task_label": task_label,
         "run_index": record.run_index,
         "campaign_seed": record.campaign_seed,
         "seed": record.seed,
@@ -161,13 +174,15 @@ def run_row(record: RunRecord) -> dict[str, Any]:
     return row
 
 
-def generation_rows(record: RunRecord) -> list[dict[str, Any]]:
-    """The generations of one run (read with its log) as rows of the generations table."""
+def generation_rows(record: RunRecord, task_label: str) -> list[dict[str, Any]]:
+    """The generations of one run (read with its log) as rows of the generations table,
+    its task labelled ``task_label``."""
     run = {
         "run_key": record_key(record),
         "evolver": record.evolver,
         "config_hash": record.config_hash,
         "task": record.task,
+        "task_label": task_label,
         "run_index": record.run_index,
     }
     rows = []
@@ -189,13 +204,19 @@ def generation_rows(record: RunRecord) -> list[dict[str, Any]]:
 
 
 def runs_rows(records: Iterable[RunRecord]) -> list[dict[str, Any]]:
-    """Every record as a row of the runs table."""
-    return [run_row(r) for r in records]
+    """Every record as a row of the runs table (tasks labelled among all of them)."""
+    records = list(records)
+    return [run_row(r, label) for r, label in zip(records, _task_labels(records), strict=True)]
 
 
 def generations_rows(records: Iterable[RunRecord]) -> list[dict[str, Any]]:
-    """Every generation of every record (read with their logs) as rows."""
-    return [row for r in records for row in generation_rows(r)]
+    """Every generation of every record (read with their logs) as rows (tasks labelled
+    among all of them)."""
+    records = list(records)
+    labels = _task_labels(records)
+    return [
+        row for r, label in zip(records, labels, strict=True) for row in generation_rows(r, label)
+    ]
 
 
 def columns(rows: Sequence[Mapping[str, Any]], table: str) -> list[str]:

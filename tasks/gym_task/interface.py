@@ -35,6 +35,7 @@ import numpy as np
 from neuroyard.core.batch import CompiledBatch, member
 from neuroyard.core.compiled import CompiledNetwork, reset, step
 from neuroyard.core.errors import TaskError
+from neuroyard.core.numbers import value_text
 
 if TYPE_CHECKING:  # for annotations only: the functions that read a space import gymnasium
     import gymnasium as gym  # (~0.2 s) on use, so importing neuroyard.tasks stays light
@@ -157,9 +158,10 @@ def describe_observations(face: Interface, space: spaces.Space) -> tuple[str, ..
     out = []
     for k in range(face.inputs):
         if face.bounded[k]:
-            rule = f"scaled from [{low[k]:.6g}, {high[k]:.6g}] onto [-1, 1], not clipped"
+            rule = f"scaled from [{value_text(low[k])}, {value_text(high[k])}] onto [-1, 1], not clipped"
         else:
-            rule = f"bounds [{low[k]:.6g}, {high[k]:.6g}]: squashed by {SQUASH} into (-1, 1)"
+            bounds = f"[{value_text(low[k])}, {value_text(high[k])}]"
+            rule = f"bounds {bounds}: squashed by {SQUASH} into (-1, 1)"
         out.append(f"observation value {k}{what}: {rule}")
     return tuple(out)
 
@@ -173,7 +175,7 @@ def describe_actions(face: Interface, space: spaces.Space) -> tuple[str, ...]:
             for k in range(face.outputs)
         )
     return tuple(
-        f"action value {k} of {space}: {lo:.6g} + clip(out, 0, 1) * {span:.6g}"
+        f"action value {k} of {space}: {value_text(lo)} + clip(out, 0, 1) * {value_text(span)}"
         for k, (lo, span) in enumerate(zip(face.action_low, face.action_span, strict=True))
     )
 

@@ -45,6 +45,7 @@ from neuroyard.core.compiled import CompiledNetwork
 from neuroyard.core.errors import TaskError
 from neuroyard.core.evolver import Evaluation
 from neuroyard.core.network import fully_connected
+from neuroyard.core.numbers import value_text
 from neuroyard.core.options import Option
 
 from ..base import Metric, SuccessCheck, Task, TaskSpec
@@ -308,7 +309,8 @@ class GymEnvTask(Task):
             return "the settings min_return and max_return"
         low, high = rewards
         return (
-            f"per-step rewards in [{low:.6g}, {high:.6g}] (gymnasium's documentation of "
+            f"per-step rewards in [{value_text(low)}, {value_text(high)}] (gymnasium's "
+            "documentation of "
             f"{env_id}, neuroyard.tasks.gym_task.returns) over at most "
             f"{self.settings['max_steps']} steps, unless given as settings"
         )

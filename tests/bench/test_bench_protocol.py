@@ -30,7 +30,6 @@ making and checking the networks), to show where the overhead goes.
 
 from __future__ import annotations
 
-import shutil
 import statistics
 import time
 from typing import Any
@@ -117,7 +116,7 @@ def medians_of(js: dict[str, list[float]]) -> dict[str, float]:
     }
 
 
-@pytest.mark.skipif(shutil.which("node") is None, reason="Node.js (node) is not on PATH")
+@pytest.mark.needs_tool("node")
 def test_bench_protocol_overhead_per_generation(benchmark) -> None:
     task = make("xor-v2", 0)
     task.warm_up()

@@ -3,7 +3,7 @@
     pytest -m slow tests/slow/test_study_other_languages.py -s
 
 ``es-node`` (JavaScript, reference/other_languages/es.js) and the C one (es.c, compiled
-into ``build/es`` by the README's command and run as ``process:build/es`` from the
+into ``build/es`` by the command of reference/README.md and run as ``process:build/es`` from the
 repository's root, so the evolver's name in the store holds no machine's path), both a
 (1 + lambda) strategy with lambda 10 and 3 hidden nodes, beside the Python
 ``hill-climber`` with the same settings and the reference NEAT: 20 runs each on xor-v2,
@@ -13,7 +13,6 @@ budget 10,000 evaluations, campaign seed 1, in one store. Writes
 
 from __future__ import annotations
 
-import shutil
 import subprocess
 from pathlib import Path
 
@@ -40,9 +39,8 @@ EVOLVERS = [
 ]
 
 
+@pytest.mark.needs_tool("node", "cc")
 def test_other_languages_beside_python_on_xor(monkeypatch) -> None:
-    if shutil.which("node") is None or shutil.which("cc") is None:
-        pytest.skip("needs node and cc on PATH")
     monkeypatch.chdir(ROOT)
     (ROOT / "build").mkdir(exist_ok=True)
     subprocess.run(
