@@ -101,7 +101,7 @@ class CmaEs:
                 "initial_step_size", 2.0,
                 "cma's sigma0: the standard deviation of the first samples around the start",
                 source="tuned: of 0.5, 1 and 2, 2 solved the most runs of xor-v2 with "
-                "hidden_layers [2] and of the pole tasks (20 runs each; README, CMA-ES)",
+                "hidden_layers [2] and of the pole tasks (20 runs each; reference/README.md, CMA-ES)",
                 above=0.0,
             ),
             Option(

@@ -243,7 +243,7 @@ def test_same_seed_same_run_whatever_numpys_global_state():
 
 def test_solves_xor_with_one_hidden_layer():
     # the task's success test (every output on the correct side of 0.5); measured: 20 of 20
-    # runs solve within 5,000 evaluations with [3], 304 on average (README, CMA-ES)
+    # runs solve within 5,000 evaluations with [3], 304 on average (reference/README.md, CMA-ES)
     records = [run("xor-v2", i, budget=5000, hidden_layers=[3]) for i in range(5)]
     assert [r.status for r in records] == ["solved"] * 5
     assert all(r.hidden_nodes == 3 for r in records)

@@ -117,9 +117,9 @@ def test_the_xor_study_report_tables_are_the_committed_ones(tmp_path) -> None:
         assert line in committed, line
 
 
-def test_the_readme_states_the_committed_figures() -> None:
-    # the project README quotes the studies' own output; these are the figures it states
-    readme = (RESULTS.parent / "README.md").read_text()
+def test_the_results_guide_states_the_committed_figures() -> None:
+    # results/README.md quotes the studies' own output; these are the figures it states
+    readme = (RESULTS / "README.md").read_text()
     xor = json.loads((RESULTS / "neat_xor/summary.json").read_text())["measured"]
     pole = {
         name: json.loads((RESULTS / f"pole/{name}.json").read_text())["summary"]
@@ -136,6 +136,6 @@ def test_the_readme_states_the_committed_figures() -> None:
         f"{pole['dpnv']['mean_evaluations']:,.0f} evaluations",
         f"generalization {pole['dpnv']['mean_generalization']:.1f} of 625",
     ]
-    flat = " ".join(readme.split())  # the README wraps its lines
+    flat = " ".join(readme.split())  # the guide wraps its lines
     for text in stated:
         assert text in flat, text

@@ -1,8 +1,8 @@
 """The command line under stress: Ctrl-C, stores that cannot be written, two coordinators on
 one store, internal errors, strict JSON, the in-process mode.
 
-The checks are on the behaviour the README documents (one line and exit 2 for an error the
-user can cause, one line naming a crash log and exit 3 for an internal error, exit 130 for
+The checks are on the behaviour harness/README.md documents (one line and exit 2 for an error
+the user can cause, one line naming a crash log and exit 3 for an internal error, exit 130 for
 Ctrl-C) and on SQLite's own integrity check.
 """
 

@@ -32,7 +32,7 @@ from neuroyard.records.runs import FAILED
 from neuroyard.records.store import ResultStore
 
 HERE = Path(__file__).parent
-README = HERE.parent / "README.md"
+GUIDE = HERE.parent / "harness" / "README.md"  # the harness guide
 PLAN = CampaignPlan(
     [
         EvolverSpec("neat", {"population_size": 50}),
@@ -247,14 +247,14 @@ def test_a_daemonic_worker_is_refused_before_any_run(tmp_path, capsys, scheduler
     assert not store.exists()
 
 
-def test_the_readmes_batch_system_configuration_starts_workers_that_can_supervise_runs():
-    """The README's dask-jobqueue example (its first ``python`` block after "HPC batch
-    system"), built without submitting: the job script starts one single-threaded, not
+def test_the_guides_batch_system_configuration_starts_workers_that_can_supervise_runs():
+    """The dask-jobqueue example of harness/README.md (its first ``python`` block after "HPC
+    batch system"), built without submitting: the job script starts one single-threaded, not
     daemonic worker per job, on the scheduler's address."""
     jobqueue = pytest.importorskip("dask_jobqueue")
-    text = README.read_text()
+    text = GUIDE.read_text()
     block = re.search(r"HPC batch system.*?```python\n(.*?)```", text, re.S)
-    assert block, "README: no python block after 'HPC batch system'"
+    assert block, "harness/README.md: no python block after 'HPC batch system'"
     code = block.group(1).split("cluster.scale")[0]  # build the cluster, submit no job
     namespace: dict = {}
     exec(code, namespace)

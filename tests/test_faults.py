@@ -5,8 +5,8 @@ one campaign per worker count (1 and 2). For each kind the run ends as the contr
 (failed with its reason, or contained: bounded fitness, non-finite evaluations counted),
 the well-behaved runs' records are identical to those of a campaign without the broken
 evolvers, the store passes SQLite's integrity check, and the campaign resumes with nothing
-left to do. The expected reasons are the harness's documented wording (README, "Broken
-evolvers").
+left to do. The expected reasons are the harness's documented wording (harness/README.md,
+"Broken evolvers").
 """
 
 from __future__ import annotations

@@ -42,7 +42,7 @@ ASK_DELAY = 0.03  # s per ask() of the slowed evolver: NEAT on XOR asks about 40
 # supervised run's worker and its evolver's process take turns, and the scheduler gives a
 # process that waits often more than its share beside busy hogs, so contention slows such
 # a run less than the calibration loop (measured: raw speed 2x slower, calibration 4x; the
-# README says so) and is no stand-in for a slower machine there.
+# harness/README.md says so) and is no stand-in for a slower machine there.
 HOGS = 2
 SLOWER = 2.0
 STEADY = 1.5  # the relative speed of the same run on the calm and the slowed CPU: within this

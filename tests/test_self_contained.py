@@ -17,6 +17,7 @@ import pytest
 
 REPO = Path(__file__).resolve().parents[1]
 SOURCES = REPO / "reference" / "SOURCES.md"
+GUIDE_FOLDERS = ("harness", "tasks", "reference", "results")  # each has a README.md guide
 
 # Names of things outside the repository. The patterns are written so that this file does
 # not match them itself (a character class or an escaped dot breaks the literal text).
@@ -123,6 +124,16 @@ def test_no_tracked_file_names_a_path_outside_the_repository():
     files = tracked_text_files()
     assert "reference/SOURCES.md" in files and "README.md" in files
     problems = {name: found for name, text in files.items() if (found := outside_references(text))}
+    assert problems == {}
+
+
+def test_the_readme_and_its_guides_name_no_path_outside_the_repository():
+    """The same rule for the README and the guides it links, read from the working tree, so
+    that a guide is held to it before it is first committed."""
+    names = ["README.md", *(f"{folder}/README.md" for folder in GUIDE_FOLDERS)]
+    problems = {
+        name: found for name in names if (found := outside_references((REPO / name).read_text()))
+    }
     assert problems == {}
 
 

@@ -7,7 +7,7 @@ whose parent dies is re-parented to the worker instead of to init, so it stays a
 worker's descendants, which :func:`end_descendants` finds through ``/proc`` and kills until
 none is left. An evolver's own process dies with its worker (:func:`die_with_parent`).
 Elsewhere than Linux none of this is available, and :func:`end_descendants` ends nothing
-(the README says so).
+(harness/README.md says so).
 """
 
 from __future__ import annotations
