@@ -218,9 +218,10 @@ def execute(
             running.add(key)
 
     try:
-        # inside: a Ctrl-C while the kernels load shuts the executor down as any other
-        kernels.prepare(_tasks_left(plan, [by_key[key] for key in remaining]), notice)
         with store.keep_alive(owner), interrupts.deferred() as pressed:
+            # deferred too: a Ctrl-C while the kernels load (the cluster's garbage-collector
+            # hooks run meanwhile) is acted on at the loop's first turn
+            kernels.prepare(_tasks_left(plan, [by_key[key] for key in remaining]), notice)
             while remaining or running:
                 if pressed.is_set():
                     pressed.clear()  # handled here, from now on
