@@ -104,3 +104,13 @@ def _reap_children() -> None:
             return
         if pid == 0:
             return
+
+
+def address_space() -> int:
+    """This process's virtual memory size in bytes (VmSize; 0 where /proc has no such
+    line), the base the run's memory limit is added to."""
+    with open("/proc/self/status") as fh:
+        for line in fh:
+            if line.startswith("VmSize:"):
+                return int(line.split()[1]) * 1024
+    return 0

@@ -49,7 +49,7 @@ from neuroyard.execution.contract import (
     checked_stats,
     flat_batch,
 )
-from neuroyard.execution.descendants import die_with_parent
+from neuroyard.execution.descendants import address_space, die_with_parent
 
 OPTIONAL = ("settings", "stats", "stop")  # evolver methods the contract makes optional
 MAX_FD = 65536  # descriptors closed above the pipe's: at least the usual soft limit
@@ -84,7 +84,7 @@ def _detach(conn: Connection, memory_limit_mb: int | None) -> None:
     )
     _unmap_shared_memory()
     if memory_limit_mb is not None:
-        limit = _address_space() + memory_limit_mb * 1024 * 1024
+        limit = address_space() + memory_limit_mb * 1024 * 1024
         _, hard = resource.getrlimit(resource.RLIMIT_AS)
         if hard != resource.RLIM_INFINITY:
             limit = min(limit, hard)
@@ -101,15 +101,6 @@ def _unmap_shared_memory() -> None:
     for arena in getattr(heap, "_arenas", ()):
         address = ctypes.addressof(ctypes.c_char.from_buffer(arena.buffer))
         munmap(address, arena.size)
-
-
-def _address_space() -> int:
-    """This process's virtual memory size in bytes (VmSize)."""
-    with open("/proc/self/status") as fh:
-        for line in fh:
-            if line.startswith("VmSize:"):
-                return int(line.split()[1]) * 1024
-    return 0
 
 
 def _answer(conn: Connection, spec: EvolverSpec) -> int:

@@ -27,7 +27,7 @@ from multiprocessing.connection import Connection
 from typing import Any
 
 from neuroyard.core.evolver_registry import available
-from neuroyard.execution.descendants import become_subreaper, end_descendants
+from neuroyard.execution.descendants import address_space, become_subreaper, end_descendants
 from neuroyard.execution.runner import run_one
 
 # Evolver calls a worker reports, by code (0: none, the harness's own code or idle).
@@ -90,15 +90,6 @@ def _exit_with_parent(parent: int) -> None:
     os._exit(0)
 
 
-def _address_space() -> int:
-    """This process's virtual memory size in bytes (VmSize)."""
-    with open("/proc/self/status") as fh:
-        for line in fh:
-            if line.startswith("VmSize:"):
-                return int(line.split()[1]) * 1024
-    return 0
-
-
 def _limit_memory(megabytes: int | None) -> None:
     """Let the coming run grow this process by at most ``megabytes`` (None: no limit);
     an allocation past it fails with MemoryError inside the run."""
@@ -106,7 +97,7 @@ def _limit_memory(megabytes: int | None) -> None:
     if megabytes is None:
         resource.setrlimit(resource.RLIMIT_AS, (hard, hard))
         return
-    soft = _address_space() + megabytes * 1024 * 1024
+    soft = address_space() + megabytes * 1024 * 1024
     if hard != resource.RLIM_INFINITY:
         soft = min(soft, hard)
     resource.setrlimit(resource.RLIMIT_AS, (soft, hard))
